@@ -1,0 +1,3 @@
+module kelvard
+
+go 1.26.8
