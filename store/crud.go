@@ -31,7 +31,7 @@ func Info[T any, P Record[T]]() *ResourceInfo {
 // Page is one page of a list: the items and the opaque cursor of the next
 // page ("" on the last page).
 type Page[T any] struct {
-	Items []T  `json:"items"`
+	Items []T    `json:"items"`
 	Next  string `json:"next_cursor,omitempty"`
 }
 

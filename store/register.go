@@ -68,25 +68,25 @@ func (e Environment) Health() health.Environment {
 // DriveModel is a drive type as its maker rates it: currents, derating
 // rules, capacitor and fan life, enclosure as supplied, costs and spares.
 type DriveModel struct {
-	ID                  int64   `json:"id" gorm:"primaryKey"`
-	Name                string  `json:"name"`
-	Maker               string  `json:"maker"`
-	VoltageClassV       float64 `json:"voltage_class_v"`
-	SupplyPhases        int     `json:"supply_phases"`
-	NormalDutyCurrentA  float64 `json:"normal_duty_current_a"`
-	NormalDutyPowerKW   float64 `json:"normal_duty_power_kw"`
-	HeavyDutyCurrentA   float64 `json:"heavy_duty_current_a"`
-	HeavyDutyPowerKW    float64 `json:"heavy_duty_power_kw"`
-	NormalOverload      float64 `json:"normal_overload_fraction" gorm:"column:normal_overload_fraction"`
-	HeavyOverload       float64 `json:"heavy_overload_fraction" gorm:"column:heavy_overload_fraction"`
-	OverloadS           float64 `json:"overload_s"`
-	RatedAmbientC       float64 `json:"rated_ambient_c"`
-	AmbientDeratePerC   float64 `json:"ambient_derate_fraction_per_c" gorm:"column:ambient_derate_fraction_per_c"`
-	MaxAmbientC         float64 `json:"max_ambient_c"`
-	AltitudeRatingM     float64 `json:"altitude_rating_m"`
+	ID                   int64   `json:"id" gorm:"primaryKey"`
+	Name                 string  `json:"name"`
+	Maker                string  `json:"maker"`
+	VoltageClassV        float64 `json:"voltage_class_v"`
+	SupplyPhases         int     `json:"supply_phases"`
+	NormalDutyCurrentA   float64 `json:"normal_duty_current_a"`
+	NormalDutyPowerKW    float64 `json:"normal_duty_power_kw"`
+	HeavyDutyCurrentA    float64 `json:"heavy_duty_current_a"`
+	HeavyDutyPowerKW     float64 `json:"heavy_duty_power_kw"`
+	NormalOverload       float64 `json:"normal_overload_fraction" gorm:"column:normal_overload_fraction"`
+	HeavyOverload        float64 `json:"heavy_overload_fraction" gorm:"column:heavy_overload_fraction"`
+	OverloadS            float64 `json:"overload_s"`
+	RatedAmbientC        float64 `json:"rated_ambient_c"`
+	AmbientDeratePerC    float64 `json:"ambient_derate_fraction_per_c" gorm:"column:ambient_derate_fraction_per_c"`
+	MaxAmbientC          float64 `json:"max_ambient_c"`
+	AltitudeRatingM      float64 `json:"altitude_rating_m"`
 	AltitudeDeratePer100 float64 `json:"altitude_derate_fraction_per_100m" gorm:"column:altitude_derate_fraction_per_100m"`
-	MaxAltitudeM        float64 `json:"max_altitude_m"`
-	DefaultCarrierKHz   float64 `json:"default_carrier_khz" gorm:"column:default_carrier_khz"`
+	MaxAltitudeM         float64 `json:"max_altitude_m"`
+	DefaultCarrierKHz    float64 `json:"default_carrier_khz" gorm:"column:default_carrier_khz"`
 	// CarrierDerate lists (carrier, fraction) points; the fraction is 1 at
 	// and below the default carrier and interpolated linearly between points.
 	CarrierDerate       []CarrierPoint `json:"carrier_derate" gorm:"serializer:json"`
