@@ -157,7 +157,7 @@ func List[T any, P Record[T]](ctx context.Context, s *Store, lq ListQuery) (Page
 	page := Page[T]{Items: items}
 	if len(items) > limit {
 		page.Items = items[:limit]
-		page.Next = EncodeCursor(P(&page.Items[limit-1]).key())
+		page.Next = EncodeCursor(P(&page.Items[limit-1]).Key())
 	}
 	return page, nil
 }
@@ -210,7 +210,7 @@ func Create[T any, P Record[T]](ctx context.Context, s *Store, apply func(*T) er
 				return err
 			}
 		}
-		return writeAudit(ctx, tx, "create", info.Name, p.key(), nil, p)
+		return writeAudit(ctx, tx, "create", info.Name, p.Key(), nil, p)
 	})
 	if err != nil {
 		return v, fmt.Errorf("create %s: %w", info.Name, err)
@@ -234,7 +234,7 @@ func Update[T any, P Record[T]](ctx context.Context, s *Store, id int64, apply f
 			return err
 		}
 		p := P(&v)
-		if p.key() != id {
+		if p.Key() != id {
 			return Invalid("id", "cannot change")
 		}
 		if err := p.prepare(ctx, tx); err != nil {

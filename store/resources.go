@@ -61,7 +61,7 @@ const (
 // can handle it.
 type record interface {
 	info() *ResourceInfo
-	key() int64
+	Key() int64
 	// prepare normalises the record before validation: trims text, puts
 	// times in UTC and fills derived fields.
 	prepare(ctx context.Context, tx *gorm.DB) error
@@ -192,7 +192,6 @@ var (
 	}
 )
 
-// Resource infos, exported for the api package.
 func (*Site) info() *ResourceInfo         { return siteInfo }
 func (*Area) info() *ResourceInfo         { return areaInfo }
 func (*DriveModel) info() *ResourceInfo   { return driveModelInfo }
@@ -202,14 +201,29 @@ func (*Component) info() *ResourceInfo    { return componentInfo }
 func (*Installation) info() *ResourceInfo { return installationInfo }
 func (*Event) info() *ResourceInfo        { return eventInfo }
 
-func (r *Site) key() int64         { return r.ID }
-func (r *Area) key() int64         { return r.ID }
-func (r *DriveModel) key() int64   { return r.ID }
-func (r *Position) key() int64     { return r.ID }
-func (r *Drive) key() int64        { return r.ID }
-func (r *Component) key() int64    { return r.ID }
-func (r *Installation) key() int64 { return r.ID }
-func (r *Event) key() int64        { return r.ID }
+// Key returns the Site's id.
+func (r *Site) Key() int64 { return r.ID }
+
+// Key returns the Area's id.
+func (r *Area) Key() int64 { return r.ID }
+
+// Key returns the DriveModel's id.
+func (r *DriveModel) Key() int64 { return r.ID }
+
+// Key returns the Position's id.
+func (r *Position) Key() int64 { return r.ID }
+
+// Key returns the Drive's id.
+func (r *Drive) Key() int64 { return r.ID }
+
+// Key returns the Component's id.
+func (r *Component) Key() int64 { return r.ID }
+
+// Key returns the Installation's id.
+func (r *Installation) Key() int64 { return r.ID }
+
+// Key returns the Event's id.
+func (r *Event) Key() int64 { return r.ID }
 
 // ---- sites
 
@@ -228,7 +242,7 @@ func (r *Site) validate(context.Context, *gorm.DB) error {
 	fe.text("name", r.Name, true, 100)
 	fe.rangeCheck("elevation_m", r.ElevationM, -500, 6000)
 	if _, err := time.LoadLocation(r.TimeZone); err != nil || r.TimeZone == "" {
-		fe.add("time_zone", "must be an IANA time zone such as UTC or Europe/Lisbon")
+		fe.add("time_zone", "must be an IANA time zone such as UTC or Etc/GMT-3")
 	}
 	fe.rangeCheck("ambient_min_c", r.AmbientMinC, -60, 80)
 	fe.rangeCheck("ambient_max_c", r.AmbientMaxC, -60, 80)

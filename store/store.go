@@ -72,7 +72,7 @@ func Open(ctx context.Context, rawURL string, opts Options) (*Store, error) {
 	if opts.MaxOpenConns == 0 {
 		opts.MaxOpenConns = 20
 	}
-	s := &Store{log: opts.Logger, now: func() time.Time { return opts.Now().UTC() }}
+	s := &Store{log: opts.Logger, now: func() time.Time { return opts.Now().UTC().Truncate(time.Microsecond) }}
 	cfg := &gorm.Config{
 		Logger:                 newGormLogger(opts.Logger),
 		NowFunc:                s.now,
