@@ -573,6 +573,7 @@ var deratingRules = []RuleInfo{
 
 // drFinding builds a finding of a rule listed in rules. physical adds the
 // safety caution to the remedy, for remedies that involve work on a drive.
+// Evidence values and limits that are NaN or infinite become nil (unknown).
 func drFinding(rules []RuleInfo, id string, sev Severity, msg string, ev []Evidence, physical bool) Finding {
 	i := slices.IndexFunc(rules, func(r RuleInfo) bool { return r.ID == id })
 	if i < 0 {
@@ -582,7 +583,18 @@ func drFinding(rules []RuleInfo, id string, sev Severity, msg string, ev []Evide
 	if physical {
 		remedy += " " + SafetyCaution
 	}
+	for j := range ev { // NaN and infinities cannot be encoded as JSON: an unknown is nil
+		ev[j].Value, ev[j].Limit = drFinite(ev[j].Value), drFinite(ev[j].Limit)
+	}
 	return Finding{Rule: id, Kind: rules[i].Kind, Severity: sev, Message: msg, Evidence: ev, Remedy: remedy}
+}
+
+// drFinite returns nil for a NaN or infinite float64 and v otherwise.
+func drFinite(v any) any {
+	if f, ok := v.(float64); ok && (math.IsNaN(f) || math.IsInf(f, 0)) {
+		return nil
+	}
+	return v
 }
 
 // drClamp01 limits x to [0, 1]; NaN stays NaN.

@@ -289,7 +289,7 @@ func TestDeratingFindings(t *testing.T) {
 
 // dutyAllRules gathers the rule lists of this part of the package.
 func dutyAllRules() []RuleInfo {
-	return slices.Concat(deratingRules, dutyRules, cabinetRules, dcBusRules)
+	return slices.Concat(deratingRules, dutyRules, cabinetRules, dcBusRules, dataQualityRules)
 }
 
 // dutyCheckFinding checks that a finding is complete: a listed rule, its
