@@ -12,12 +12,12 @@ import (
 
 // Sources quoted in evidence.
 const (
-	srcSealedCabinet = "enclosure design notes: dT = P / (k × A), k ≈ 5.5 W/m²K painted sheet steel, 3.7 stainless, 3.5 plastic; aluminium about 12 from memory"
-	srcSurfaceFactor = "IEC TR 60890 surface factors, from memory: exposed top 1.4, covered top 0.7, exposed side 0.9, covered side 0.5, floor 0"
-	srcVentilated    = "physics: dT = P / (rho·cp × V), rho·cp ≈ 1.2 kJ/(m³·K) for air near sea level"
-	srcCooler        = "cooler rating: the cabinet holds its set point while the heat load stays within the cooler's rated capacity"
-	srcSolar         = "design irradiance 1000 W/m² × absorptance × sunlit area; absorptance about 0.2-0.3 fresh white to 0.9 black"
-	srcLossModel     = "from memory (common practice): losses = fixed part + part proportional to current (switching, diode drop) + part proportional to current squared (conduction)"
+	dutySrcSealedCabinet = "enclosure design notes: dT = P / (k × A), k ≈ 5.5 W/m²K painted sheet steel, 3.7 stainless, 3.5 plastic; aluminium about 12 from memory"
+	dutySrcSurfaceFactor = "IEC TR 60890 surface factors, from memory: exposed top 1.4, covered top 0.7, exposed side 0.9, covered side 0.5, floor 0"
+	dutySrcVentilated    = "physics: dT = P / (rho·cp × V), rho·cp ≈ 1.2 kJ/(m³·K) for air near sea level"
+	dutySrcCooler        = "cooler rating: the cabinet holds its set point while the heat load stays within the cooler's rated capacity"
+	dutySrcSolar         = "design irradiance 1000 W/m² × absorptance × sunlit area; absorptance about 0.2-0.3 fresh white to 0.9 black"
+	dutySrcLossModel     = "from memory (common practice): losses = fixed part + part proportional to current (switching, diode drop) + part proportional to current squared (conduction)"
 )
 
 // CabinetPlacement says how a cabinet stands, which sets which of its faces
@@ -522,24 +522,24 @@ func AssessCabinet(in CabinetInput, p CabinetParams) (CabinetAssessment, error) 
 	out := CabinetAssessment{Heat: h}
 	balance := []Evidence{
 		{Name: "design maximum ambient", Value: in.DesignAmbientMaxC, Unit: "°C"},
-		{Name: "heat from drive and other equipment", Value: h.LossesW, Unit: "W", Source: srcLossModel + "; " + srcLosses},
-		{Name: "solar gain at design irradiance", Value: h.SolarW, Unit: "W", Source: srcSolar},
+		{Name: "heat from drive and other equipment", Value: h.LossesW, Unit: "W", Source: dutySrcLossModel + "; " + dutySrcLosses},
+		{Name: "solar gain at design irradiance", Value: h.SolarW, Unit: "W", Source: dutySrcSolar},
 	}
-	src := srcSealedCabinet
+	src := dutySrcSealedCabinet
 	switch h.Cooling {
 	case CoolingSealed, CoolingAirConditioned:
 		balance = append(balance,
-			Evidence{Name: "effective cooling surface", Value: h.AreaM2, Unit: "m²", Source: srcSurfaceFactor},
-			Evidence{Name: "wall heat transfer coefficient", Value: h.KWM2K, Unit: "W/m²K", Source: srcSealedCabinet})
+			Evidence{Name: "effective cooling surface", Value: h.AreaM2, Unit: "m²", Source: dutySrcSurfaceFactor},
+			Evidence{Name: "wall heat transfer coefficient", Value: h.KWM2K, Unit: "W/m²K", Source: dutySrcSealedCabinet})
 	case CoolingFanVentilated:
-		src = srcVentilated
-		balance = append(balance, Evidence{Name: "fan air flow", Value: in.Cabinet.AirflowM3H, Unit: "m³/h", Source: srcVentilated})
+		src = dutySrcVentilated
+		balance = append(balance, Evidence{Name: "fan air flow", Value: in.Cabinet.AirflowM3H, Unit: "m³/h", Source: dutySrcVentilated})
 	}
 	if h.OverCapacity {
 		out.Findings = append(out.Findings, drFinding(cabinetRules, "environment.cabinet_cooling_capacity", SeverityMajor,
 			fmt.Sprintf("At the design maximum of %.1f °C the cabinet's heat load of %.0f W exceeds its cooler's rated %.0f W; the air inside rises to %.1f °C instead of the %.1f °C set point.",
 				in.DesignAmbientMaxC, h.CoolerLoadW, h.CoolerCapacityW, h.InternalAirC, in.Cabinet.SetPointC),
-			append([]Evidence{{Name: "cooler heat load", Value: h.CoolerLoadW, Unit: "W", Limit: h.CoolerCapacityW, Source: srcCooler}}, balance...), true))
+			append([]Evidence{{Name: "cooler heat load", Value: h.CoolerLoadW, Unit: "W", Limit: h.CoolerCapacityW, Source: dutySrcCooler}}, balance...), true))
 	}
 	r := in.Ratings
 	if h.InternalAirC > r.RatedAmbientC {
@@ -556,7 +556,7 @@ func AssessCabinet(in CabinetInput, p CabinetParams) (CabinetAssessment, error) 
 				{Name: "predicted internal air", Value: h.InternalAirC, Unit: "°C", Limit: limit, Source: src},
 				{Name: "drive rated ambient", Value: r.RatedAmbientC, Unit: "°C"},
 				{Name: "drive maximum ambient", Value: r.MaxAmbientC, Unit: "°C"},
-				{Name: "ambient derate factor at that air", Value: fac.Value, Unit: "fraction", Source: srcAmbientDerate},
+				{Name: "ambient derate factor at that air", Value: fac.Value, Unit: "fraction", Source: dutySrcAmbientDerate},
 			}, balance...), true))
 	}
 	return out, nil

@@ -354,3 +354,11 @@ func BenchmarkEstimateInternalAirC(b *testing.B) {
 		m.EstimateInternalAirC(s)
 	}
 }
+
+func BenchmarkDriveLossesW(b *testing.B) {
+	r := dutyTestRatings()
+	m := DefaultLossModel()
+	for b.Loop() {
+		DriveLossesW(r, DutyNormal, m, 63)
+	}
+}

@@ -165,7 +165,7 @@ func CheckSilent(lastAt int64, seen bool, at int64, p DataQualityParams) []Findi
 	if !seen {
 		return []Finding{drFinding(dataQualityRules, "data_quality.silent", SeverityMinor,
 			"The position has never sent a reading.",
-			[]Evidence{{Name: "readings received", Value: 0}}, false)}
+			[]Evidence{{Name: "readings received", Value: 0, Limit: 1, Source: "kelvard: a registered position is expected to report"}}, false)}
 	}
 	age := at - lastAt
 	sev := SeverityMinor
@@ -235,8 +235,8 @@ type JumpSummary struct {
 	WorstAt      int64       `json:"worst_at"`
 }
 
-// Jumps returns, for the air and heatsink temperatures, the changes between
-// consecutive logged readings faster than the limit:
+// TemperatureJumps returns, for the air and heatsink temperatures, the
+// changes between consecutive logged readings faster than the limit:
 //
 //	|T_i - T_(i-1)| / ((t_i - t_(i-1)) / 60 s) > limit   (K/min)
 //
@@ -245,7 +245,7 @@ type JumpSummary struct {
 // spike counts twice (up and back). Readings with the same or an earlier
 // time than the one before are skipped. Only fields with jumps are
 // returned.
-func Jumps(samples []Sample, p DataQualityParams) []JumpSummary {
+func TemperatureJumps(samples []Sample, p DataQualityParams) []JumpSummary {
 	var out []JumpSummary
 	for _, f := range []SampleField{FieldInternalAir, FieldAmbient, FieldHeatsink} {
 		limit := p.AirJumpKPerMin
@@ -372,9 +372,9 @@ type DataQualityInput struct {
 // AssessDataQuality raises data_quality.silent (CheckSilent),
 // data_quality.stuck_sensor (minor, one per stuck field; StuckRuns),
 // data_quality.implausible_jump (minor, one per field with at least
-// JumpsMin jumps; Jumps) and data_quality.fahrenheit_suspected (major, as it
-// corrupts every temperature model; FahrenheitSuspected). Sources and
-// validity as the functions named.
+// JumpsMin jumps; TemperatureJumps) and data_quality.fahrenheit_suspected
+// (major, as it corrupts every temperature model; FahrenheitSuspected).
+// Sources and validity as the functions named.
 func AssessDataQuality(in DataQualityInput, p DataQualityParams) ([]Finding, error) {
 	if err := p.Validate(); err != nil {
 		return nil, err
@@ -398,7 +398,7 @@ func AssessDataQuality(in DataQualityInput, p DataQualityParams) ([]Finding, err
 			}, true))
 	}
 
-	for _, j := range Jumps(in.Samples, p) {
+	for _, j := range TemperatureJumps(in.Samples, p) {
 		if j.Count < p.JumpsMin {
 			continue
 		}

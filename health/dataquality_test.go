@@ -104,7 +104,7 @@ func TestStuckRuns(t *testing.T) {
 	}
 }
 
-func TestJumps(t *testing.T) {
+func TestTemperatureJumps(t *testing.T) {
 	p := DefaultDataQualityParams() // air 0.5 K/min, heatsink 3 K/min (from memory)
 	cases := []struct {
 		name  string
@@ -125,7 +125,7 @@ func TestJumps(t *testing.T) {
 		{"smooth day", 3600, func(i int) float64 { return 20 + 8*math.Sin(float64(i)*2*math.Pi/24) }, 0},
 	}
 	for _, c := range cases {
-		got := Jumps(dqSeries(24, c.stepS, c.f), p)
+		got := TemperatureJumps(dqSeries(24, c.stepS, c.f), p)
 		n := 0
 		for _, j := range got {
 			if j.Field == FieldAmbient {
@@ -139,7 +139,7 @@ func TestJumps(t *testing.T) {
 	// Heatsink: 30 K in 5 minutes (6 K/min) is a jump; 10 K (2 K/min) is not.
 	hs := dqSeries(3, 300, func(int) float64 { return 20 })
 	hs[0].HeatsinkC, hs[1].HeatsinkC, hs[2].HeatsinkC = 40, 50, 80
-	got := Jumps(hs, p)
+	got := TemperatureJumps(hs, p)
 	if len(got) != 1 || got[0].Field != FieldHeatsink || got[0].Count != 1 || !dutyNear(got[0].WorstKPerMin, 6, 1e-12) {
 		t.Errorf("heatsink: %+v", got)
 	}

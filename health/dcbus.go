@@ -17,9 +17,9 @@ import (
 
 // Sources quoted in evidence.
 const (
-	srcBusVoltage = "power electronics handbooks: DC bus ≈ √2 × line voltage at light load, ≈ 1.35 × line voltage (3√2/π) averaged under load for a six-pulse rectifier"
-	srcBusRipple  = "common practice: ripple grows with load; ageing capacitors and a lost supply phase (ripple moves from 6× to 2× line frequency) enlarge it at the same load"
-	srcRegen      = "common practice: energy returned by a decelerating or overhauling load cannot flow back through a diode rectifier and raises the bus until an over-voltage trip"
+	dutySrcBusVoltage = "power electronics handbooks: DC bus ≈ √2 × line voltage at light load, ≈ 1.35 × line voltage (3√2/π) averaged under load for a six-pulse rectifier"
+	dutySrcBusRipple  = "common practice: ripple grows with load; ageing capacitors and a lost supply phase (ripple moves from 6× to 2× line frequency) enlarge it at the same load"
+	dutySrcRegen      = "common practice: energy returned by a decelerating or overhauling load cannot flow back through a diode rectifier and raises the bus until an over-voltage trip"
 )
 
 // SixPulseMeanFactor is 3√2/π ≈ 1.3505, the mean output of a six-pulse
@@ -404,8 +404,8 @@ func AssessDCBus(in DCBusInput, p DCBusParams) (DCBusAssessment, error) {
 			[]Evidence{
 				{Name: "median deviation from the expected bus voltage", Value: d.MedianFraction, Unit: "fraction", Limit: p.DeviationFraction, Source: "from memory: 10 % at light load (DESIGN.md section 3), configurable"},
 				{Name: "median bus voltage", Value: d.MedianBusV, Unit: "V"},
-				{Name: "expected bus voltage at light load (√2 × line)", Value: out.ExpectedLightLoadV, Unit: "V", Source: srcBusVoltage},
-				{Name: "expected bus voltage under load (3√2/π × line)", Value: SixPulseMeanFactor * lineV, Unit: "V", Source: srcBusVoltage},
+				{Name: "expected bus voltage at light load (√2 × line)", Value: out.ExpectedLightLoadV, Unit: "V", Source: dutySrcBusVoltage},
+				{Name: "expected bus voltage under load (3√2/π × line)", Value: SixPulseMeanFactor * lineV, Unit: "V", Source: dutySrcBusVoltage},
 				{Name: "supply line voltage", Value: lineV, Unit: "V"},
 				{Name: "bus readings", Value: d.Samples, Limit: p.DeviationMinSamples},
 			}, true))
@@ -422,7 +422,7 @@ func AssessDCBus(in DCBusInput, p DCBusParams) (DCBusAssessment, error) {
 			fmt.Sprintf("At the same load the DC-bus ripple rose by %.0f %% over %.0f days (%.2f V per day at %.0f %% load); ageing capacitors or a lost supply phase are the usual causes.",
 				100*r.RiseFraction, days, r.PerDayV, 100*r.MeanLoadFraction),
 			[]Evidence{
-				{Name: "ripple rise at constant load over the window", Value: r.RiseFraction, Unit: "fraction", Limit: p.RippleRiseFraction, Source: "kelvard default, configurable; " + srcBusRipple},
+				{Name: "ripple rise at constant load over the window", Value: r.RiseFraction, Unit: "fraction", Limit: p.RippleRiseFraction, Source: "kelvard default, configurable; " + dutySrcBusRipple},
 				{Name: "ripple trend at constant load", Value: r.PerDayV, Unit: "V/d"},
 				{Name: "ripple per unit of load", Value: r.PerLoadV, Unit: "V"},
 				{Name: "fitted ripple at mean load, window start", Value: r.StartV, Unit: "V"},
@@ -455,7 +455,7 @@ func AssessDCBus(in DCBusInput, p DCBusParams) (DCBusAssessment, error) {
 			how = append(how, h)
 		}
 	}
-	near := Evidence{Name: "bus readings near the trip threshold", Value: out.NearTripReadings, Limit: fmt.Sprintf("%.0f V (%.0f %% of %.0f V)", nearLimit, 100*p.NearTripFraction, in.Ratings.BusTripV), Source: srcBusTripDefault}
+	near := Evidence{Name: "bus readings near the trip threshold", Value: out.NearTripReadings, Limit: fmt.Sprintf("%.0f V (%.0f %% of %.0f V)", nearLimit, 100*p.NearTripFraction, in.Ratings.BusTripV), Source: dutySrcBusTripDefault}
 	maxBus := Evidence{Name: "highest bus reading", Value: out.MaxBusV, Unit: "V", Limit: in.Ratings.BusTripV, Source: "model's over-voltage trip threshold"}
 	days := float64(p.TripWindowS) / 86400
 	switch {
@@ -465,7 +465,7 @@ func AssessDCBus(in DCBusInput, p DCBusParams) (DCBusAssessment, error) {
 			fmt.Sprintf("The drive tripped on DC-bus over-voltage %d time(s) while decelerating in the last %.0f days (%d over-voltage trips in all): the load returns more energy than the drive can absorb.",
 				out.DecelerationTrips, days, out.OverVoltageTrips),
 			[]Evidence{
-				{Name: "over-voltage trips while decelerating", Value: out.DecelerationTrips, Limit: 1, Source: srcRegen},
+				{Name: "over-voltage trips while decelerating", Value: out.DecelerationTrips, Limit: 1, Source: dutySrcRegen},
 				{Name: "over-voltage trips in the window", Value: out.OverVoltageTrips},
 				{Name: "how deceleration was recognised", Value: slices.Compact(how)},
 				maxBus, near,

@@ -277,3 +277,12 @@ func BenchmarkRippleTrendOf(b *testing.B) {
 		RippleTrendOf(s, 100, 0, 1_800_000_000, p)
 	}
 }
+
+func BenchmarkExpectedBusV(b *testing.B) {
+	p := DefaultDCBusParams()
+	x := 0.0
+	for b.Loop() {
+		x += 1e-6
+		ExpectedBusV(480, x, p)
+	}
+}

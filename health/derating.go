@@ -13,14 +13,14 @@ import (
 
 // Sources quoted in factors and evidence.
 const (
-	srcAmbientDerate  = "common practice: about 1 % of rated current per °C above the rated ambient, up to the model's maximum ambient; per model"
-	srcAltitudeDerate = "IEC 61800-2 (1000 m rating point); about 1 % of rated current per 100 m above it, common practice; per model"
-	srcCarrierDerate  = "model's carrier derate table, linear between points (common practice: switching losses grow roughly in proportion to carrier frequency)"
-	srcSinglePhase    = "common practice: a three-phase drive on a single-phase supply is cut to about 50-58 % of rated current; per model"
-	srcDutyClass      = "common practice: normal duty about 110 % for 60 s, heavy duty about 150 % for 60 s, every 600 s"
-	srcInsulation     = "IEC 60664-1 (insulation clearances above 2000 m)"
-	srcLosses         = "common practice: drive losses about 2-3 % of rated power at the rated point"
-	srcBusTripDefault = "from memory: over-voltage trip roughly 800-830 V DC for the 400/480 V class, about 1.2 × the peak of the nominal line voltage"
+	dutySrcAmbientDerate  = "common practice: about 1 % of rated current per °C above the rated ambient, up to the model's maximum ambient; per model"
+	dutySrcAltitudeDerate = "IEC 61800-2 (1000 m rating point); about 1 % of rated current per 100 m above it, common practice; per model"
+	dutySrcCarrierDerate  = "model's carrier derate table, linear between points (common practice: switching losses grow roughly in proportion to carrier frequency)"
+	dutySrcSinglePhase    = "common practice: a three-phase drive on a single-phase supply is cut to about 50-58 % of rated current; per model"
+	dutySrcDutyClass      = "common practice: normal duty about 110 % for 60 s, heavy duty about 150 % for 60 s, every 600 s"
+	dutySrcInsulation     = "IEC 60664-1 (insulation clearances above 2000 m)"
+	dutySrcLosses         = "common practice: drive losses about 2-3 % of rated power at the rated point"
+	dutySrcBusTripDefault = "from memory: over-voltage trip roughly 800-830 V DC for the 400/480 V class, about 1.2 × the peak of the nominal line voltage"
 )
 
 // Factor names as they appear in Factor.Name and the API's current.factors.
@@ -234,9 +234,9 @@ func (r Ratings) RatedLossesW(d Duty) float64 {
 	return r.LossFraction * r.Rated(d).RatedKW * 1000
 }
 
-// Factor is one derate factor with what it was computed from. Value lies in
-// [0, 1]; 0 means the drive is outside its rating at that input.
-type Factor struct {
+// DerateFactor is one derate factor with what it was computed from. Value
+// lies in [0, 1]; 0 means the drive is outside its rating at that input.
+type DerateFactor struct {
 	Name   string  `json:"name"`
 	Value  float64 `json:"value_fraction"`
 	Input  float64 `json:"input"`
@@ -247,7 +247,7 @@ type Factor struct {
 
 // OutOfRating reports whether the factor is zero: the input lies beyond what
 // the model is rated for.
-func (f Factor) OutOfRating() bool { return f.Value <= 0 }
+func (f DerateFactor) OutOfRating() bool { return f.Value <= 0 }
 
 // AmbientFactor is the derate for the air temperature at the drive:
 //
@@ -260,11 +260,11 @@ func (f Factor) OutOfRating() bool { return f.Value <= 0 }
 // temperatures the model's data sheet covers; below the minimum operating
 // temperature the factor stays 1 (cold is judged elsewhere). A NaN ambient
 // is an error.
-func AmbientFactor(r Ratings, ambientC float64) (Factor, error) {
+func AmbientFactor(r Ratings, ambientC float64) (DerateFactor, error) {
 	if math.IsNaN(ambientC) || math.IsInf(ambientC, 0) {
-		return Factor{}, fmt.Errorf("ambient factor: ambient temperature %v is not a number", ambientC)
+		return DerateFactor{}, fmt.Errorf("ambient factor: ambient temperature %v is not a number", ambientC)
 	}
-	f := Factor{Name: FactorAmbient, Input: ambientC, Unit: "°C", Source: srcAmbientDerate, Value: 1}
+	f := DerateFactor{Name: FactorAmbient, Input: ambientC, Unit: "°C", Source: dutySrcAmbientDerate, Value: 1}
 	switch {
 	case ambientC > r.MaxAmbientC:
 		f.Value = 0
@@ -287,11 +287,11 @@ func AmbientFactor(r Ratings, ambientC float64) (Factor, error) {
 // clamped to [0, 1]. It covers the thinner air's poorer cooling only; above
 // about 2000 m insulation clearances need checking too (IEC 60664-1). Valid
 // from sea level (negative elevations give 1) to the model's maximum.
-func AltitudeFactor(r Ratings, altitudeM float64) (Factor, error) {
+func AltitudeFactor(r Ratings, altitudeM float64) (DerateFactor, error) {
 	if math.IsNaN(altitudeM) || math.IsInf(altitudeM, 0) {
-		return Factor{}, fmt.Errorf("altitude factor: elevation %v is not a number", altitudeM)
+		return DerateFactor{}, fmt.Errorf("altitude factor: elevation %v is not a number", altitudeM)
 	}
-	f := Factor{Name: FactorAltitude, Input: altitudeM, Unit: "m", Source: srcAltitudeDerate, Value: 1}
+	f := DerateFactor{Name: FactorAltitude, Input: altitudeM, Unit: "m", Source: dutySrcAltitudeDerate, Value: 1}
 	switch {
 	case altitudeM > r.MaxAltitudeM:
 		f.Value = 0
@@ -314,14 +314,14 @@ func AltitudeFactor(r Ratings, altitudeM float64) (Factor, error) {
 // frequency, so makers publish a falling current). A carrier of 0 or NaN
 // means "the model's default" and gives 1. Valid within the table; the
 // model gives no rating beyond its last point.
-func CarrierFactor(r Ratings, carrierKHz float64) (Factor, error) {
+func CarrierFactor(r Ratings, carrierKHz float64) (DerateFactor, error) {
 	if math.IsInf(carrierKHz, 0) || carrierKHz < 0 {
-		return Factor{}, fmt.Errorf("carrier factor: carrier %v kHz is not a usable frequency", carrierKHz)
+		return DerateFactor{}, fmt.Errorf("carrier factor: carrier %v kHz is not a usable frequency", carrierKHz)
 	}
 	if math.IsNaN(carrierKHz) || carrierKHz == 0 {
 		carrierKHz = r.DefaultCarrierKHz
 	}
-	f := Factor{Name: FactorCarrier, Input: carrierKHz, Unit: "kHz", Source: srcCarrierDerate, Value: 1}
+	f := DerateFactor{Name: FactorCarrier, Input: carrierKHz, Unit: "kHz", Source: dutySrcCarrierDerate, Value: 1}
 	if carrierKHz <= r.DefaultCarrierKHz {
 		return f, nil
 	}
@@ -349,14 +349,14 @@ func CarrierFactor(r Ratings, carrierKHz float64) (Factor, error) {
 // common practice, 0.50-0.58 per model: on one line pair the rectifier
 // conducts in short, tall pulses and the bus capacitors carry far more ripple
 // current. Valid for supplyPhases 0 (as rated), 1 or 3.
-func SupplyFactor(r Ratings, supplyPhases int, configured float64) (Factor, error) {
+func SupplyFactor(r Ratings, supplyPhases int, configured float64) (DerateFactor, error) {
 	if supplyPhases != 0 && supplyPhases != 1 && supplyPhases != 3 {
-		return Factor{}, fmt.Errorf("supply factor: supply phases must be 0 (as rated), 1 or 3, got %d", supplyPhases)
+		return DerateFactor{}, fmt.Errorf("supply factor: supply phases must be 0 (as rated), 1 or 3, got %d", supplyPhases)
 	}
 	if math.IsNaN(configured) || configured < 0 || configured > 1 {
-		return Factor{}, fmt.Errorf("supply factor: configured single-phase factor %v must lie in [0, 1]", configured)
+		return DerateFactor{}, fmt.Errorf("supply factor: configured single-phase factor %v must lie in [0, 1]", configured)
 	}
-	f := Factor{Name: FactorSupply, Input: float64(supplyPhases), Unit: "phases", Source: srcSinglePhase, Value: 1}
+	f := DerateFactor{Name: FactorSupply, Input: float64(supplyPhases), Unit: "phases", Source: dutySrcSinglePhase, Value: 1}
 	if supplyPhases == 0 {
 		f.Input = float64(r.SupplyPhases)
 	}
@@ -399,12 +399,12 @@ type Allowance struct {
 	RatedA   float64           `json:"rated_a"`
 	AllowedA float64           `json:"allowed_a"`
 	Overload OverloadAllowance `json:"overload"`
-	Factors  []Factor          `json:"factors"`
+	Factors  []DerateFactor    `json:"factors"`
 }
 
 // OutOfRating returns the factors that are zero.
-func (a Allowance) OutOfRating() []Factor {
-	var out []Factor
+func (a Allowance) OutOfRating() []DerateFactor {
+	var out []DerateFactor
 	for _, f := range a.Factors {
 		if f.OutOfRating() {
 			out = append(out, f)
@@ -414,10 +414,10 @@ func (a Allowance) OutOfRating() []Factor {
 }
 
 // Factor returns the factor with the given name and whether it exists.
-func (a Allowance) Factor(name string) (Factor, bool) {
-	i := slices.IndexFunc(a.Factors, func(f Factor) bool { return f.Name == name })
+func (a Allowance) Factor(name string) (DerateFactor, bool) {
+	i := slices.IndexFunc(a.Factors, func(f DerateFactor) bool { return f.Name == name })
 	if i < 0 {
-		return Factor{}, false
+		return DerateFactor{}, false
 	}
 	return a.Factors[i], true
 }
@@ -453,7 +453,7 @@ func AllowedCurrent(r Ratings, a Application) (Allowance, error) {
 		return Allowance{}, fmt.Errorf("allowed current: %w", err)
 	}
 	dr := r.Rated(a.Duty)
-	out := Allowance{Duty: dr.Duty, RatedA: dr.RatedA, Overload: dr.Overload, Factors: []Factor{amb, alt, car, sup}}
+	out := Allowance{Duty: dr.Duty, RatedA: dr.RatedA, Overload: dr.Overload, Factors: []DerateFactor{amb, alt, car, sup}}
 	out.AllowedA = dr.RatedA
 	for _, f := range out.Factors {
 		out.AllowedA *= f.Value
@@ -514,7 +514,7 @@ func DeratingFindings(r Ratings, app Application, al Allowance, designAmbientMax
 	}
 	designOver := designAmbientMaxC > r.MaxAmbientC
 	if designOver {
-		oor = append(oor, Evidence{Name: "area design maximum ambient", Value: designAmbientMaxC, Unit: "°C", Limit: r.MaxAmbientC, Source: srcAmbientDerate})
+		oor = append(oor, Evidence{Name: "area design maximum ambient", Value: designAmbientMaxC, Unit: "°C", Limit: r.MaxAmbientC, Source: dutySrcAmbientDerate})
 	}
 	if len(oor) > 0 {
 		out = append(out, drFinding(deratingRules, "derating.out_of_rating", SeverityCritical,
@@ -529,7 +529,7 @@ func DeratingFindings(r Ratings, app Application, al Allowance, designAmbientMax
 				100*sup.Value, sup.Value*ratedA, ratedA),
 			[]Evidence{
 				{Name: "supply phases", Value: 1, Limit: r.SupplyPhases},
-				{Name: "model single-phase factor", Value: sup.Value, Unit: "fraction", Source: srcSinglePhase},
+				{Name: "model single-phase factor", Value: sup.Value, Unit: "fraction", Source: dutySrcSinglePhase},
 				{Name: "single-phase factor set at the position", Value: false},
 			}, true))
 	}
@@ -545,7 +545,7 @@ func DeratingFindings(r Ratings, app Application, al Allowance, designAmbientMax
 			fmt.Sprintf("The area's design maximum of %.1f °C is %.1f K above the drive's rated ambient of %.1f °C; the drive must be derated to %.0f %% of its rated current on the hottest days.",
 				designAmbientMaxC, excess, r.RatedAmbientC, 100*fac.Value),
 			[]Evidence{
-				{Name: "area design maximum ambient", Value: designAmbientMaxC, Unit: "°C", Limit: r.RatedAmbientC, Source: srcAmbientDerate},
+				{Name: "area design maximum ambient", Value: designAmbientMaxC, Unit: "°C", Limit: r.RatedAmbientC, Source: dutySrcAmbientDerate},
 				{Name: "ambient derate factor", Value: fac.Value, Unit: "fraction"},
 				{Name: "excess above which severity is major", Value: excess, Unit: "K", Limit: p.AmbientMajorExcessK, Source: "kelvard default, configurable"},
 			}, true))
@@ -554,7 +554,7 @@ func DeratingFindings(r Ratings, app Application, al Allowance, designAmbientMax
 	if app.AltitudeM > p.InsulationCheckM {
 		out = append(out, drFinding(deratingRules, "environment.altitude_insulation", SeverityAdvice,
 			fmt.Sprintf("The site stands at %.0f m, above %.0f m: insulation clearances need checking for the thinner air, not only the current derate.", app.AltitudeM, p.InsulationCheckM),
-			[]Evidence{{Name: "site elevation", Value: app.AltitudeM, Unit: "m", Limit: p.InsulationCheckM, Source: srcInsulation}}, false))
+			[]Evidence{{Name: "site elevation", Value: app.AltitudeM, Unit: "m", Limit: p.InsulationCheckM, Source: dutySrcInsulation}}, false))
 	}
 	return out
 }

@@ -311,6 +311,51 @@ func dutyCheckFinding(t *testing.T, f Finding) {
 	if !strings.HasPrefix(f.Rule, string(f.Kind)+".") {
 		t.Errorf("finding %s does not start with its kind %s", f.Rule, f.Kind)
 	}
+	if !strings.HasPrefix(f.Remedy, all[i].Remedy) {
+		t.Errorf("finding %s: remedy does not start with the rule's remedy", f.Rule)
+	}
+	// Evidence carries values, the thresholds they were held to and a source.
+	hasLimit := slices.ContainsFunc(f.Evidence, func(e Evidence) bool { return e.Limit != nil })
+	hasSource := slices.ContainsFunc(f.Evidence, func(e Evidence) bool { return e.Source != "" })
+	if !hasLimit || !hasSource {
+		t.Errorf("finding %s: evidence lacks a limit (%v) or a source (%v): %+v", f.Rule, hasLimit, hasSource, f.Evidence)
+	}
+}
+
+func TestDutyRuleLists(t *testing.T) {
+	seen := map[string]bool{}
+	for _, r := range dutyAllRules() {
+		if seen[r.ID] {
+			t.Errorf("rule %s listed twice", r.ID)
+		}
+		seen[r.ID] = true
+		if !r.Kind.Valid() || !strings.HasPrefix(r.ID, string(r.Kind)+".") || r.Title == "" || r.Remedy == "" {
+			t.Errorf("rule %+v is incomplete", r)
+		}
+	}
+	if len(seen) != 18 {
+		t.Errorf("%d rules listed, want 18", len(seen))
+	}
+}
+
+func TestSafetyCautionOnPhysicalRemedies(t *testing.T) {
+	// DESIGN.md section 7: every proposal of physical work carries the caution.
+	r := dutyTestRatings()
+	app := Application{AmbientC: 30, AltitudeM: 2500, SupplyPhases: 1}
+	al, err := AllowedCurrent(r, app)
+	if err != nil {
+		t.Fatal(err)
+	}
+	fs := DeratingFindings(r, app, al, 30, DefaultDeratingParams())
+	if len(fs) != 2 {
+		t.Fatalf("findings %v, want single-phase and altitude", dutyRuleIDs(fs))
+	}
+	for _, f := range fs {
+		physical := f.Rule == "derating.single_phase_supply"
+		if strings.Contains(f.Remedy, SafetyCaution) != physical {
+			t.Errorf("%s: caution present %v, want %v", f.Rule, !physical, physical)
+		}
+	}
 }
 
 // dutyRandomRatings draws a valid model at random.

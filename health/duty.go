@@ -261,10 +261,10 @@ func AssessDuty(in DutyInput, p DutyParams) (DutyAssessment, error) {
 				pk.Over, pk.Intervals, al.Duty, 100*al.Overload.Fraction, pk.LimitA, pk.WorstA),
 			[]Evidence{
 				{Name: "intervals with a peak above the overload allowance", Value: pk.Over, Limit: p.OverloadPeaksMin, Source: "kelvard default, configurable"},
-				{Name: "worst peak current", Value: pk.WorstA, Unit: "A", Limit: pk.LimitA, Source: srcDutyClass},
+				{Name: "worst peak current", Value: pk.WorstA, Unit: "A", Limit: pk.LimitA, Source: dutySrcDutyClass},
 				{Name: "worst peak at (Unix s)", Value: pk.WorstAt},
 				{Name: "allowed continuous current", Value: al.AllowedA, Unit: "A"},
-				{Name: "overload allowance", Value: al.Overload.Fraction, Unit: "fraction", Limit: fmt.Sprintf("%.0f s every %.0f s", al.Overload.DurationS, al.Overload.EveryS), Source: srcDutyClass},
+				{Name: "overload allowance", Value: al.Overload.Fraction, Unit: "fraction", Limit: fmt.Sprintf("%.0f s every %.0f s", al.Overload.DurationS, al.Overload.EveryS), Source: dutySrcDutyClass},
 			}, true))
 	}
 
