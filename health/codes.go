@@ -33,9 +33,13 @@ func ParseNEMAType(s string) (NEMAType, error) {
 func (t NEMAType) Hazardous() bool { return t == "7" || t == "8" || t == "9" || t == "10" }
 
 // IPCode is one IEC 60529 IP code. A digit of -1 stands for "X" (not
-// specified). K marks the ISO 20653 high-pressure hot-water variant (IPX9K
-// and IP6K9K style codes). Letters keeps any additional and supplementary
-// letters (A-D, H, M, S, W) as written.
+// specified). K marks the ISO 20653 road-vehicle variant of the water digit:
+// 4K (splashing at raised pressure), 6K (powerful jets at raised pressure)
+// and 9K (high-pressure hot-water washdown), as in IPX9K or IP6K9K (ISO 20653
+// digits from memory). The solids K of ISO 20653 (5K, 6K) is accepted on
+// input and not kept: kelvard reads IP6K as IP6. Letters keeps the optional
+// additional letter (one of A-D) followed by any supplementary letters (H, M,
+// S, W), as IEC 60529 orders them.
 type IPCode struct {
 	Solids  int
 	Water   int
@@ -86,20 +90,29 @@ func parseIPCode(s string) (IPCode, error) {
 		return IPCode{}, err
 	}
 	if strings.HasPrefix(rest, "K") { // ISO 20653 writes IP5K and IP6K
+		if c.Solids != 5 && c.Solids != 6 {
+			return IPCode{}, fmt.Errorf("%q: K follows only the solids digit 5 or 6", s)
+		}
 		rest = rest[1:]
 	}
 	if c.Water, err = digit(9); err != nil {
 		return IPCode{}, err
 	}
 	if strings.HasPrefix(rest, "K") {
-		if c.Water != 9 {
-			return IPCode{}, fmt.Errorf("%q: K follows only the water digit 9", s)
+		if c.Water != 4 && c.Water != 6 && c.Water != 9 {
+			return IPCode{}, fmt.Errorf("%q: K follows only the water digit 4, 6 or 9", s)
 		}
 		c.K = true
 		rest = rest[1:]
 	}
-	for _, r := range rest {
-		if !strings.ContainsRune("ABCDHMSW", r) {
+	for i, r := range rest {
+		switch {
+		case strings.ContainsRune("ABCD", r):
+			if i != 0 {
+				return IPCode{}, fmt.Errorf("%q: the additional letter %q must come first and only once", s, r)
+			}
+		case strings.ContainsRune("HMSW", r):
+		default:
 			return IPCode{}, fmt.Errorf("%q has an unknown letter %q", s, r)
 		}
 	}
@@ -131,7 +144,7 @@ func ParseIPRating(s string) (IPRating, error) {
 		}
 		c, err := parseIPCode(part)
 		if err != nil {
-			return nil, err
+			return nil, fmt.Errorf("IP rating %q: %w", s, err)
 		}
 		out = append(out, c)
 	}
