@@ -27,9 +27,9 @@ func (h *harness) buildFleet(suffix string) fleet {
 	f.model = h.create("/api/v1/drive-models", map[string]any{"name": "Model " + suffix, "voltage_class_v": 480,
 		"normal_duty_current_a": 24, "normal_duty_power_kw": 15, "heavy_duty_current_a": 21, "heavy_duty_power_kw": 11,
 		"carrier_derate": []map[string]any{{"carrier_khz": 8, "fraction": 0.85}, {"carrier_khz": 12, "fraction": 0.7}},
-		"enclosure": map[string]any{"nema_type": "1", "ip_code": "IP21"},
-		"capacitor": map[string]any{"rated_life_h": 5000, "rated_temp_c": 105, "rating_includes_ripple": true, "ripple_rise_c": 5},
-		"fan":       map[string]any{"l10_h": 40000, "ref_temp_c": 60, "halving_interval_c": 10, "runs": "when_warm"}})
+		"enclosure":      map[string]any{"nema_type": "1", "ip_code": "IP21"},
+		"capacitor":      map[string]any{"rated_life_h": 5000, "rated_temp_c": 105, "rating_includes_ripple": true, "ripple_rise_c": 5},
+		"fan":            map[string]any{"l10_h": 40000, "ref_temp_c": 60, "halving_interval_c": 10, "runs": "when_warm"}})
 	f.position = h.create("/api/v1/positions", map[string]any{"area_id": f.area, "tag": "DP-" + suffix, "supply_voltage_v": 480,
 		"mounting": "cabinet", "cabinet": map[string]any{"nema_type": "12", "cooling": "sealed", "material": "painted_steel",
 			"height_m": 2, "width_m": 0.8, "depth_m": 0.6, "placement": "against_wall"}})

@@ -171,36 +171,21 @@ type Position struct {
 // Cabinet describes the cabinet a drive is mounted in; it is empty when the
 // drive stands in its own enclosure.
 type Cabinet struct {
-	NEMAType            string           `json:"nema_type" gorm:"column:nema_type"`
-	IPCode              string           `json:"ip_code" gorm:"column:ip_code"`
-	Cooling             health.Cooling   `json:"cooling"`
-	Material            health.Material  `json:"material"`
-	AbsorptanceFraction float64          `json:"absorptance_fraction"`
-	HeightM             float64          `json:"height_m"`
-	WidthM              float64          `json:"width_m"`
-	DepthM              float64          `json:"depth_m"`
-	Placement           CabinetPlacement `json:"placement"`
-	SurfaceAreaM2       float64          `json:"surface_area_m2" gorm:"column:surface_area_m2"`
-	AirflowM3PerH       float64          `json:"airflow_m3_per_h" gorm:"column:airflow_m3_per_h"`
-	CoolingCapacityW    float64          `json:"cooling_capacity_w"`
-	SetPointC           float64          `json:"set_point_c"`
-	OtherLossesW        float64          `json:"other_losses_w"`
-}
-
-// CabinetPlacement is how a cabinet stands, which sets which of its surfaces
-// shed heat (IEC TR 60890 surface factors).
-type CabinetPlacement string
-
-// Cabinet placements.
-const (
-	PlacementFreeStanding CabinetPlacement = "free_standing"
-	PlacementAgainstWall  CabinetPlacement = "against_wall"
-	PlacementInRow        CabinetPlacement = "in_row"
-)
-
-// CabinetPlacements lists every placement.
-func CabinetPlacements() []CabinetPlacement {
-	return []CabinetPlacement{PlacementFreeStanding, PlacementAgainstWall, PlacementInRow}
+	NEMAType            string                  `json:"nema_type" gorm:"column:nema_type"`
+	IPCode              string                  `json:"ip_code" gorm:"column:ip_code"`
+	Cooling             health.Cooling          `json:"cooling"`
+	Material            health.Material         `json:"material"`
+	AbsorptanceFraction float64                 `json:"absorptance_fraction"`
+	HeightM             float64                 `json:"height_m"`
+	WidthM              float64                 `json:"width_m"`
+	DepthM              float64                 `json:"depth_m"`
+	Placement           health.CabinetPlacement `json:"placement"`
+	TopCovered          bool                    `json:"top_covered"`
+	SurfaceAreaM2       float64                 `json:"surface_area_m2" gorm:"column:surface_area_m2"`
+	AirflowM3PerH       float64                 `json:"airflow_m3_per_h" gorm:"column:airflow_m3_per_h"`
+	CoolingCapacityW    float64                 `json:"cooling_capacity_w"`
+	SetPointC           float64                 `json:"set_point_c"`
+	OtherLossesW        float64                 `json:"other_losses_w"`
 }
 
 // Drive is a physical unit with a serial number. Where it stands is kept in

@@ -43,7 +43,7 @@ func TestRegisterRoundTrip(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if m.Capacitor.RatedLifeH != 5000 || m.Fan.Runs != health.FanAlways || m.Enclosure.NEMAType != "1" || m.BusTripV != 1.7*480 {
+		if m.Capacitor.RatedLifeH != 5000 || m.Fan.Runs != health.FanAlways || m.Enclosure.NEMAType != "1" || m.BusTripV != health.DefaultBusTripV(480) {
 			t.Errorf("model defaults not kept: %+v", m)
 		}
 		if f.Position.SiteID != f.Site.ID {

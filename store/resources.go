@@ -279,20 +279,25 @@ func (r *Area) validate(ctx context.Context, tx *gorm.DB) error {
 // ---- drive models
 
 func (r *DriveModel) defaults() {
-	// Defaults follow DESIGN.md section 3: normal duty 110 % and heavy duty
-	// 150 % for 60 s (common practice); rated at 40 °C with 1 %/°C to 50 °C
-	// (common practice); 1000 m altitude rating (IEC 61800-2) with 1 % per
-	// 100 m (common practice); single-phase 50 % (common practice); losses
-	// 2.5 % (common practice); capacitors 5000 h at 105 °C with about 5 °C
-	// ripple self-heating (capacitor makers' life formulas); fan L10 40 000 h
-	// at 60 °C halving every 10 °C (common practice).
+	// Derating defaults are the models' own (health.DefaultRatings, which
+	// names their sources). Capacitors default to 5000 h at 105 °C rated
+	// with ripple and about 5 °C ripple self-heating (capacitor makers'
+	// life formulas); the fan to L10 40 000 h at 60 °C halving every 10 °C
+	// (common practice).
+	d := health.DefaultRatings(0)
+	carrier := make([]CarrierPoint, len(d.CarrierTable))
+	for i, p := range d.CarrierTable {
+		carrier[i] = CarrierPoint{CarrierKHz: p.KHz, Fraction: p.Factor}
+	}
 	*r = DriveModel{
-		SupplyPhases: 3, NormalOverload: 1.10, HeavyOverload: 1.50, OverloadS: 60,
-		RatedAmbientC: 40, AmbientDeratePerC: 0.01, MaxAmbientC: 50,
-		AltitudeRatingM: 1000, AltitudeDeratePer100: 0.01, MaxAltitudeM: 3000,
-		DefaultCarrierKHz: 4, CarrierDerate: []CarrierPoint{}, SinglePhaseFraction: 0.5, LossesFraction: 0.025,
-		Capacitor: CapacitorSpec{RatedLifeH: 5000, RatedTempC: 105, RatingIncludesRipple: true, RippleRiseC: 5},
-		Fan:       FanSpec{L10H: 40000, RefTempC: 60, HalvingInterval: 10, Runs: health.FanAlways},
+		SupplyPhases: d.SupplyPhases, NormalOverload: d.NormalOverload.Fraction, HeavyOverload: d.HeavyOverload.Fraction,
+		OverloadS:     d.NormalOverload.DurationS,
+		RatedAmbientC: d.RatedAmbientC, AmbientDeratePerC: d.AmbientSlopePerC, MaxAmbientC: d.MaxAmbientC,
+		AltitudeRatingM: d.AltitudeRatingM, AltitudeDeratePer100: d.AltitudeSlopePer100M, MaxAltitudeM: d.MaxAltitudeM,
+		DefaultCarrierKHz: d.DefaultCarrierKHz, CarrierDerate: carrier, SinglePhaseFraction: d.SinglePhaseFactor,
+		LossesFraction: d.LossFraction,
+		Capacitor:      CapacitorSpec{RatedLifeH: 5000, RatedTempC: 105, RatingIncludesRipple: true, RippleRiseC: 5},
+		Fan:            FanSpec{L10H: 40000, RefTempC: 60, HalvingInterval: 10, Runs: health.FanAlways},
 	}
 }
 
@@ -305,9 +310,7 @@ func (r *DriveModel) prepare(context.Context, *gorm.DB) error {
 		r.CarrierDerate = []CarrierPoint{}
 	}
 	if r.BusTripV == 0 && r.VoltageClassV > 0 {
-		// From memory: about 800-830 V DC for the 400/480 V class, which
-		// scales to roughly 1.7 x the class voltage.
-		r.BusTripV = 1.7 * r.VoltageClassV
+		r.BusTripV = health.DefaultBusTripV(r.VoltageClassV)
 	}
 	return nil
 }
@@ -429,9 +432,9 @@ func (r *Position) validate(ctx context.Context, tx *gorm.DB) error {
 			if c.HeightM <= 0 || c.WidthM <= 0 || c.DepthM <= 0 {
 				fe.add("cabinet.surface_area_m2", "give surface_area_m2 or all of height_m, width_m and depth_m")
 			}
-			oneOf(&fe, "cabinet.placement", c.Placement, CabinetPlacements())
+			oneOf(&fe, "cabinet.placement", c.Placement, health.CabinetPlacements())
 		} else if c.Placement != "" {
-			oneOf(&fe, "cabinet.placement", c.Placement, CabinetPlacements())
+			oneOf(&fe, "cabinet.placement", c.Placement, health.CabinetPlacements())
 		}
 		fe.rangeCheck("cabinet.airflow_m3_per_h", c.AirflowM3PerH, 0, 100000)
 		if c.Cooling == health.CoolingFanVentilated && c.AirflowM3PerH <= 0 {

@@ -102,6 +102,7 @@ CREATE TABLE positions (
     cab_width_m               double precision NOT NULL DEFAULT 0,
     cab_depth_m               double precision NOT NULL DEFAULT 0,
     cab_placement             text NOT NULL DEFAULT '',
+    cab_top_covered           boolean NOT NULL DEFAULT false,
     cab_surface_area_m2       double precision NOT NULL DEFAULT 0,
     cab_airflow_m3_per_h      double precision NOT NULL DEFAULT 0,
     cab_cooling_capacity_w    double precision NOT NULL DEFAULT 0,

@@ -102,6 +102,7 @@ CREATE TABLE positions (
     cab_width_m               REAL NOT NULL DEFAULT 0,
     cab_depth_m               REAL NOT NULL DEFAULT 0,
     cab_placement             text NOT NULL DEFAULT '',
+    cab_top_covered           boolean NOT NULL DEFAULT false,
     cab_surface_area_m2       REAL NOT NULL DEFAULT 0,
     cab_airflow_m3_per_h      REAL NOT NULL DEFAULT 0,
     cab_cooling_capacity_w    REAL NOT NULL DEFAULT 0,

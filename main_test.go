@@ -1,0 +1,200 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"io"
+	"net/http"
+	"regexp"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+
+	"kelvard/store"
+	"kelvard/store/storetest"
+)
+
+// syncBuffer is a bytes.Buffer safe for the server goroutine and the test.
+type syncBuffer struct {
+	mu sync.Mutex
+	b  bytes.Buffer
+}
+
+func (s *syncBuffer) Write(p []byte) (int, error) {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return s.b.Write(p)
+}
+
+func (s *syncBuffer) String() string {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return s.b.String()
+}
+
+// started is a running kelvard process (in this test binary).
+type started struct {
+	base   string
+	cancel context.CancelFunc
+	done   chan int
+	stderr *syncBuffer
+}
+
+var addrRE = regexp.MustCompile(`serving on (http://\S+)`)
+
+// startServe runs `kelvard serve` with env and waits until /readyz is 200.
+func startServe(t *testing.T, env map[string]string, args ...string) *started {
+	t.Helper()
+	ctx, cancel := context.WithCancel(context.Background())
+	out, errOut := &syncBuffer{}, &syncBuffer{}
+	s := &started{cancel: cancel, done: make(chan int, 1), stderr: errOut}
+	getenv := func(k string) string { return env[k] }
+	go func() {
+		s.done <- run(ctx, append([]string{"serve", "--listen", "127.0.0.1:0"}, args...), getenv, out, errOut)
+	}()
+	t.Cleanup(func() { s.stop(t) })
+	deadline := time.Now().Add(60 * time.Second)
+	for time.Now().Before(deadline) {
+		if m := addrRE.FindStringSubmatch(out.String()); m != nil {
+			s.base = m[1]
+			break
+		}
+		select {
+		case code := <-s.done:
+			t.Fatalf("serve exited with %d: %s", code, errOut.String())
+		case <-time.After(20 * time.Millisecond):
+		}
+	}
+	if s.base == "" {
+		t.Fatalf("serve printed no address: %s", errOut.String())
+	}
+	for time.Now().Before(deadline) {
+		resp, err := http.Get(s.base + "/readyz")
+		if err == nil {
+			resp.Body.Close()
+			if resp.StatusCode == http.StatusOK {
+				return s
+			}
+		}
+		time.Sleep(50 * time.Millisecond)
+	}
+	t.Fatalf("/readyz never turned ready: %s", errOut.String())
+	return nil
+}
+
+// stop sends the equivalent of SIGTERM and waits for a clean exit.
+func (s *started) stop(t *testing.T) {
+	t.Helper()
+	if s.cancel == nil {
+		return
+	}
+	s.cancel()
+	s.cancel = nil
+	select {
+	case code := <-s.done:
+		if code != 0 {
+			t.Errorf("serve exited with %d: %s", code, s.stderr.String())
+		}
+	case <-time.After(40 * time.Second):
+		t.Error("serve did not stop within 40 s")
+	}
+}
+
+func call(t *testing.T, method, url, token, body string) (int, []byte) {
+	t.Helper()
+	var r io.Reader
+	if body != "" {
+		r = strings.NewReader(body)
+	}
+	req, _ := http.NewRequest(method, url, r)
+	if token != "" {
+		req.Header.Set("Authorization", "Bearer "+token)
+	}
+	resp, err := http.DefaultClient.Do(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer resp.Body.Close()
+	b, _ := io.ReadAll(resp.Body)
+	return resp.StatusCode, b
+}
+
+// TestServeEndToEnd starts the real program on each store with a bootstrap
+// token and uses the API.
+func TestServeEndToEnd(t *testing.T) {
+	t.Parallel()
+	for _, d := range storetest.Dialects {
+		t.Run(string(d), func(t *testing.T) {
+			t.Parallel()
+			secret, err := store.NewSecret()
+			if err != nil {
+				t.Fatal(err)
+			}
+			env := map[string]string{"KELVARD_DATABASE_URL": storetest.URL(t, d), "KELVARD_BOOTSTRAP_TOKEN": secret, "KELVARD_LOG_LEVEL": "warn"}
+			srv := startServe(t, env)
+			if code, _ := call(t, "GET", srv.base+"/healthz", "", ""); code != 200 {
+				t.Errorf("/healthz: %d", code)
+			}
+			code, body := call(t, "POST", srv.base+"/api/v1/sites", secret, `{"name":"Hill works","ambient_min_c":-10,"ambient_max_c":35}`)
+			if code != http.StatusCreated {
+				t.Fatalf("create site: %d %s", code, body)
+			}
+			code, body = call(t, "GET", srv.base+"/api/v1/sites", secret, "")
+			var page struct{ Items []store.Site }
+			if code != 200 || json.Unmarshal(body, &page) != nil || len(page.Items) != 1 || page.Items[0].Name != "Hill works" {
+				t.Errorf("list sites: %d %s", code, body)
+			}
+			srv.stop(t)
+			// A second start on the same store keeps the data and does not
+			// make the bootstrap token again.
+			srv = startServe(t, env)
+			code, body = call(t, "GET", srv.base+"/api/v1/tokens", secret, "")
+			var toks []store.Token
+			if code != 200 || json.Unmarshal(body, &toks) != nil || len(toks) != 1 {
+				t.Errorf("tokens after restart: %d %s", code, body)
+			}
+		})
+	}
+}
+
+// TestCommands runs migrate, token and version the way an operator would.
+func TestCommands(t *testing.T) {
+	t.Parallel()
+	url := storetest.URL(t, store.SQLite)
+	env := func(k string) string {
+		return map[string]string{"KELVARD_DATABASE_URL": url, "KELVARD_LOG_LEVEL": "warn"}[k]
+	}
+	runOK := func(args ...string) string {
+		t.Helper()
+		var out, errOut bytes.Buffer
+		if code := run(context.Background(), args, env, &out, &errOut); code != 0 {
+			t.Fatalf("kelvard %v: exit %d: %s", args, code, errOut.String())
+		}
+		return out.String()
+	}
+	if !strings.Contains(runOK("migrate"), "migrations applied") {
+		t.Error("migrate says nothing")
+	}
+	secret := strings.TrimSpace(runOK("token", "create", "--role", "planner", "--name", "night shift"))
+	if !strings.HasPrefix(secret, "kvd_") {
+		t.Fatalf("token create printed %q", secret)
+	}
+	list := runOK("token", "list")
+	if !strings.Contains(list, "night shift") || !strings.Contains(list, "planner") || strings.Contains(list, secret) {
+		t.Errorf("token list:\n%s", list)
+	}
+	if !strings.Contains(runOK("token", "revoke", "1"), "revoked") {
+		t.Error("revoke says nothing")
+	}
+	if !strings.HasPrefix(runOK("version"), "kelvard ") {
+		t.Error("version")
+	}
+	for _, bad := range [][]string{{}, {"frobnicate"}, {"token"}, {"token", "create", "--role", "boss", "--name", "x"}, {"serve", "--listen"}} {
+		var out, errOut bytes.Buffer
+		if code := run(context.Background(), bad, env, &out, &errOut); code == 0 {
+			t.Errorf("kelvard %v succeeded", bad)
+		}
+	}
+}
