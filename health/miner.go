@@ -672,3 +672,277 @@ func (l *LifeLedger) project(p LifeProjectionParams, at int64) LifeReport {
 	}
 	return r
 }
+
+// TempBin is the time a drive spent with its air temperature in one 1 °C
+// bin during an hour, with what the life models need to recompute damage:
+// the mean air temperature, the first two moments of the output current and
+// the fan's running time. One-degree bins keep the error of using the bin's
+// mean temperature below 0.02 % for the 10-degree rule (second-order term
+// (ln2/10)^2 * (1/12) / 2 of a uniform spread over 1 °C; arithmetic).
+type TempBin struct {
+	// C is the lower edge of the bin, °C: the bin holds [C, C+1).
+	C int16 `json:"c"`
+	// S is the time in the bin, seconds; AirCS the air temperature times
+	// seconds, so the mean is AirCS/S.
+	S     float64 `json:"s"`
+	AirCS float64 `json:"air_cs"`
+	// CurrentS is the part of S with a known current (a logged current, or
+	// a stopped drive); I2S and I4S sum I^2*dt and I^4*dt over it.
+	CurrentS float64 `json:"current_s"`
+	I2S      float64 `json:"i2_s"`
+	I4S      float64 `json:"i4_s"`
+	// FanOnS is the part of S during which the fan ran.
+	FanOnS float64 `json:"fan_on_s"`
+}
+
+// HourAggregate sums the readings whose interval ends within one clock hour
+// (Hour, Hour+3600], so that capacitor and fan life can be recomputed after
+// the raw readings are gone.
+type HourAggregate struct {
+	Hour    int64     `json:"hour"`
+	FirstAt int64     `json:"first_at"`
+	LastAt  int64     `json:"last_at"`
+	Samples int64     `json:"samples"`
+	Bins    []TempBin `json:"bins"`
+	// GapS and Gaps are the intervals longer than the maximum gap;
+	// MissingS the intervals without any air temperature. Both are filled
+	// at the fill temperature when damage is computed.
+	GapS     float64         `json:"gap_s"`
+	Gaps     int64           `json:"gaps"`
+	MissingS float64         `json:"missing_s"`
+	Air      AirSourceCounts `json:"air"`
+}
+
+// AggregateParams says how readings are rolled up: the interval rules of
+// the life models and the fan control, needed to record the fan's running
+// time.
+type AggregateParams struct {
+	Interval     LifeIntervalParams `json:"interval"`
+	FanRuns      FanRuns            `json:"fan_runs"`
+	FanSwitchOnC float64            `json:"fan_switch_on_c"`
+}
+
+// DefaultAggregateParams returns the default interval rules and the fan
+// control of DefaultFanSpec.
+func DefaultAggregateParams() AggregateParams {
+	f := DefaultFanSpec()
+	return AggregateParams{Interval: DefaultLifeIntervalParams(), FanRuns: f.Runs, FanSwitchOnC: f.SwitchOnC}
+}
+
+// BuildHourAggregates rolls sorted readings up into hourly aggregates with
+// 1 °C time-at-temperature bins, using the same intervals as the
+// accumulation functions: a reading closes the interval since its
+// predecessor (prevAt when hasPrev, else the previous reading), which goes
+// whole to the hour holding its end. Intervals longer than MaxGapS become
+// gap time; readings not after their predecessor are skipped. Build over
+// whole hours (for a retention roll-up, all readings up to an hour
+// boundary); an hour split across calls yields two aggregates for it, which
+// the accumulation functions handle. Valid for any reading interval; the
+// damage recomputed from aggregates agrees with the raw readings to about
+// 0.1 % (tested on a minute series).
+func BuildHourAggregates(prevAt int64, hasPrev bool, samples []Sample, air LifeAirInputs, p AggregateParams) ([]HourAggregate, error) {
+	if err := p.Interval.Validate(); err != nil {
+		return nil, fmt.Errorf("build hour aggregates: %w", err)
+	}
+	if !p.FanRuns.Valid() {
+		return nil, fmt.Errorf("build hour aggregates: fan running mode %q must be one of %v", p.FanRuns, FanRunsValues())
+	}
+	var out []HourAggregate
+	var g *HourAggregate
+	last := prevAt
+	for i := range samples {
+		s := &samples[i]
+		at := s.At
+		var from int64
+		if hasPrev {
+			if at <= last {
+				continue
+			}
+			from = last
+		} else {
+			hasPrev = true
+			from = at - p.Interval.FirstIntervalS
+		}
+		last = at
+		hour := lifeFloorDiv(at-1, lifeSecondsPerHour) * lifeSecondsPerHour
+		if g == nil || g.Hour != hour {
+			out = append(out, HourAggregate{Hour: hour, FirstAt: at})
+			g = &out[len(out)-1]
+		}
+		g.LastAt = at
+		g.Samples++
+		if at == from {
+			continue // first reading, no credited interval
+		}
+		dt := float64(at - from)
+		if at-from > p.Interval.MaxGapS {
+			g.Gaps++
+			g.GapS += dt
+			continue
+		}
+		a, k := airOf(s, i, air.InternalC, air.RiseOverAmbientC)
+		var src [airSources]int64
+		src[k] = 1
+		g.Air.addArray(&src)
+		if k == airMissing {
+			g.MissingS += dt
+			continue
+		}
+		b := g.bin(a)
+		b.S += dt
+		b.AirCS += a * dt
+		if cur := s.CurrentA; lifeFinite(cur) {
+			i2 := cur * cur
+			b.CurrentS += dt
+			b.I2S += i2 * dt
+			b.I4S += i2 * i2 * dt
+		} else if s.FrequencyHz == 0 {
+			b.CurrentS += dt
+		}
+		if fanOn(s, p.FanRuns, p.FanSwitchOnC) {
+			b.FanOnS += dt
+		}
+	}
+	return out, nil
+}
+
+// bin returns the bin of an air temperature, adding it in order if new.
+func (g *HourAggregate) bin(airC float64) *TempBin {
+	c := int16(max(-32768, min(32767, math.Floor(airC))))
+	i := 0
+	for i < len(g.Bins) && g.Bins[i].C < c {
+		i++
+	}
+	if i == len(g.Bins) || g.Bins[i].C != c {
+		g.Bins = append(g.Bins, TempBin{})
+		copy(g.Bins[i+1:], g.Bins[i:])
+		g.Bins[i] = TempBin{C: c}
+	}
+	return &g.Bins[i]
+}
+
+// AccumulateCapacitorAggregates adds hourly aggregates to a capacitor's
+// ledger, as AccumulateCapacitor does for raw readings. Each bin ages at the
+// core temperature of its mean air and mean squared current,
+//
+//	core = mean_air + dT_rated * E[I^2]/I_rated^2,
+//
+// times the second-order correction exp(b^2 * dT_rated^2 * Var[I^2/I_rated^2] / 2)
+// for the spread of the current within the bin, b the logarithmic slope of
+// the life law at that core temperature (ln2/10 for the 10-degree rule,
+// Ea/(k*T^2) for Arrhenius): the cumulant expansion of the mean of an
+// exponential (arithmetic). Gap and missing time is filled as in
+// AccumulateCapacitor. An hour's damage goes to the day holding the hour.
+// Aggregates whose LastAt is not after the ledger's last reading are
+// skipped. Valid with the accuracy stated on BuildHourAggregates.
+func AccumulateCapacitorAggregates(spec CapacitorSpec, p CapacitorParams, st CapacitorState, aggs []HourAggregate) (CapacitorState, AccumulationReport, error) {
+	if err := spec.Validate(); err != nil {
+		return st, AccumulationReport{}, fmt.Errorf("accumulate capacitor aggregates: %w", err)
+	}
+	if err := p.Validate(); err != nil {
+		return st, AccumulationReport{}, fmt.Errorf("accumulate capacitor aggregates: %w", err)
+	}
+	law := newCapLaw(spec)
+	fillCore := p.Interval.FillAirC + spec.RippleRiseC*p.FillCurrentRatio*p.FillCurrentRatio
+	fillRate := law.rateS(fillCore)
+	missR2 := p.MissingCurrentRatio * p.MissingCurrentRatio
+	invI2 := law.invIref * law.invIref
+	accumulate := func(c *ledgerCursor, g *HourAggregate, day int64) {
+		for _, b := range g.Bins {
+			if b.S <= 0 {
+				continue
+			}
+			mean := b.AirCS / b.S
+			if b.CurrentS > 0 {
+				m := b.I2S / b.CurrentS * invI2
+				v := math.Max(0, b.I4S/b.CurrentS*invI2*invI2-m*m)
+				core := mean + law.rise*m
+				k := law.logSlope(core) * law.rise
+				c.addDay(day, g.LastAt, law.rateS(core)*math.Exp(k*k*v/2), core, b.CurrentS, b.CurrentS)
+			}
+			if rest := b.S - b.CurrentS; rest > 0 {
+				core := mean + law.rise*missR2
+				c.addDay(day, g.LastAt, law.rateS(core), core, rest, rest)
+			}
+		}
+		if fs := g.GapS + g.MissingS; fs > 0 {
+			c.addDay(day, g.LastAt, fillRate, fillCore, fs, fs)
+		}
+	}
+	led, rep := accumulateAggregates(st.LifeLedger, aggs, accumulate)
+	return CapacitorState{led}, rep, nil
+}
+
+// logSlope returns d ln(rate)/dT at a core temperature.
+func (l *capLaw) logSlope(coreC float64) float64 {
+	if l.arrhenius {
+		t := coreC + lifeKelvinOffset
+		return l.eaK / (t * t)
+	}
+	return math.Ln2 / 10
+}
+
+// AccumulateFanAggregates adds hourly aggregates to a fan's ledger, as
+// AccumulateFan does for raw readings: each bin's fan running time ages at
+// the bin's mean air temperature (FanSpec.LifeH, common practice); gap and
+// missing time is filled at FillAirC with the fan running. The fan control
+// is the one given to BuildHourAggregates.
+func AccumulateFanAggregates(spec FanSpec, p FanParams, st FanState, aggs []HourAggregate) (FanState, AccumulationReport, error) {
+	if err := spec.Validate(); err != nil {
+		return st, AccumulationReport{}, fmt.Errorf("accumulate fan aggregates: %w", err)
+	}
+	if err := p.Validate(); err != nil {
+		return st, AccumulationReport{}, fmt.Errorf("accumulate fan aggregates: %w", err)
+	}
+	law := newFanLaw(spec)
+	fill := p.Interval.FillAirC
+	accumulate := func(c *ledgerCursor, g *HourAggregate, day int64) {
+		for _, b := range g.Bins {
+			if b.S <= 0 {
+				continue
+			}
+			mean := b.AirCS / b.S
+			c.addDay(day, g.LastAt, law.rateS(mean)*b.FanOnS/b.S, mean, b.S, b.FanOnS)
+		}
+		if fs := g.GapS + g.MissingS; fs > 0 {
+			c.addDay(day, g.LastAt, law.rateS(fill), fill, fs, fs)
+		}
+	}
+	led, rep := accumulateAggregates(st.LifeLedger, aggs, accumulate)
+	return FanState{led}, rep, nil
+}
+
+// accumulateAggregates runs the bookkeeping shared by the aggregate
+// accumulators; accumulate adds one aggregate's damage.
+func accumulateAggregates(led LifeLedger, aggs []HourAggregate, accumulate func(*ledgerCursor, *HourAggregate, int64)) (LifeLedger, AccumulationReport) {
+	c := openCursor(&led)
+	d0, s0 := c.damage, c.seconds
+	var rep AccumulationReport
+	var gapS float64
+	for i := range aggs {
+		g := &aggs[i]
+		if led.HasLast && g.LastAt <= led.LastAt {
+			rep.Skipped += g.Samples
+			continue
+		}
+		if !led.HasLast {
+			led.FirstAt = g.FirstAt
+		}
+		accumulate(&c, g, lifeFloorDiv(g.Hour, lifeSecondsPerDay))
+		led.HasLast, led.LastAt = true, g.LastAt
+		rep.Samples += g.Samples
+		rep.Gaps += g.Gaps
+		gapS += g.GapS
+		rep.Air.add(g.Air)
+	}
+	rep.DamageAdded = c.damage - d0
+	rep.Hours = (c.seconds - s0) / lifeSecondsPerHour
+	rep.GapH = gapS / lifeSecondsPerHour
+	c.close(&led)
+	led.Samples += rep.Samples
+	led.Skipped += rep.Skipped
+	led.Gaps += rep.Gaps
+	led.GapS += gapS
+	led.Air.add(rep.Air)
+	return led, rep
+}
