@@ -219,7 +219,7 @@ func newCapLaw(s CapacitorSpec) capLaw {
 func (l *capLaw) rateS(coreC float64) float64 {
 	var r float64
 	if l.arrhenius {
-		r = l.invL0s * math.Exp(l.eaK*(1/(coreC+lifeKelvinOffset)-l.invTrefK))
+		r = l.invL0s * math.Exp(l.eaK*(l.invTrefK-1/(coreC+lifeKelvinOffset)))
 	} else {
 		r = l.invL0s * math.Exp2((coreC-l.tref)*0.1)
 	}
