@@ -337,7 +337,7 @@ func TestAccumulateIntervals(t *testing.T) {
 		ss[3].InternalAirC = math.NaN()
 		ss[3].AmbientC = 41 // ambient + 4
 		ss[4].InternalAirC = math.NaN()
-		ss[4].AmbientC = 45 // ambient alone (no rise given) -> checked below
+		ss[4].AmbientC = 45             // ambient alone (no rise given) -> checked below
 		ss[5].InternalAirC = math.NaN() // nothing: fill 65
 		est := []float64{math.NaN(), math.NaN(), 45}
 		st, rep, _ := AccumulateCapacitor(spec, p, CapacitorState{}, ss, LifeAirInputs{InternalC: est, RiseOverAmbientC: 4})
@@ -499,7 +499,7 @@ func TestAggregatesAgreeWithRaw(t *testing.T) {
 	specs := []CapacitorSpec{rippleSpec(), {RatedLifeH: 5000, RatedTempC: 105, RatingIncludesRipple: true, RippleRiseC: 8, RippleRefCurrentA: 37.3, ActivationEnergyEV: 0.9}}
 	p := DefaultCapacitorParams()
 	ss := series(42, testT0, 60*24*60, 60, 37.3) // 60 days of minutes
-	for i := 1000; i < 1300; i++ {            // a stretch with no air reading
+	for i := 1000; i < 1300; i++ {               // a stretch with no air reading
 		ss[i].InternalAirC, ss[i].AmbientC = math.NaN(), math.NaN()
 	}
 	for i := range ss[5000:] { // a five-hour hole
