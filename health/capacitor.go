@@ -192,6 +192,7 @@ type capLaw struct {
 	minRateS  float64 // damage per second at the life cap, or 0
 	rise      float64 // dT_rated
 	invIref   float64 // 1 / I_rated, 0 without a ripple term
+	tab       exp2Table
 }
 
 func newCapLaw(s CapacitorSpec) capLaw {
@@ -202,6 +203,7 @@ func newCapLaw(s CapacitorSpec) capLaw {
 		eaK:       s.ActivationEnergyEV / BoltzmannEV,
 		invTrefK:  1 / (s.RefTempC() + lifeKelvinOffset),
 		rise:      s.RippleRiseC,
+		tab:       newExp2Table(),
 	}
 	if s.MaxLifeH > 0 {
 		l.minRateS = 1 / (s.MaxLifeH * 3600)
@@ -214,14 +216,14 @@ func newCapLaw(s CapacitorSpec) capLaw {
 
 // rateS returns damage per second at a core temperature: 1 / L(T) with L in
 // seconds. It is the hot path of accumulation, so the 10-degree rule uses
-// math.Exp2 directly; the result agrees with CapacitorSpec.LifeH to a few
-// units in the last place.
+// the table-driven exp2 of miner.go; the result agrees with
+// CapacitorSpec.LifeH to a few units in the last place.
 func (l *capLaw) rateS(coreC float64) float64 {
 	var r float64
 	if l.arrhenius {
 		r = l.invL0s * math.Exp(l.eaK*(l.invTrefK-1/(coreC+lifeKelvinOffset)))
 	} else {
-		r = l.invL0s * math.Exp2((coreC-l.tref)*0.1)
+		r = l.invL0s * l.tab.exp2((coreC-l.tref)*0.1)
 	}
 	if r < l.minRateS {
 		r = l.minRateS

@@ -138,15 +138,16 @@ type FanState struct {
 // fanLaw holds the constants of the fan life law for the accumulation loop.
 type fanLaw struct {
 	invL10s, tref, invH float64
+	tab                 exp2Table
 }
 
 func newFanLaw(s FanSpec) fanLaw {
-	return fanLaw{invL10s: 1 / (s.L10H * lifeSecondsPerHour), tref: s.RefTempC, invH: 1 / s.HalvingC}
+	return fanLaw{invL10s: 1 / (s.L10H * lifeSecondsPerHour), tref: s.RefTempC, invH: 1 / s.HalvingC, tab: newExp2Table()}
 }
 
 // rateS returns damage per running second at an air temperature.
 func (l *fanLaw) rateS(tempC float64) float64 {
-	return l.invL10s * math.Exp2((tempC-l.tref)*l.invH)
+	return l.invL10s * l.tab.exp2((tempC-l.tref)*l.invH)
 }
 
 // AccumulateFan adds a batch of readings to a fan's ledger by the

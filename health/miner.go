@@ -258,9 +258,25 @@ type LifeLedger struct {
 	Skipped int64           `json:"skipped"`
 	Gaps    int64           `json:"gaps"`
 	Air     AirSourceCounts `json:"air"`
-	// Days holds one bucket per UTC day that saw any time, oldest first,
-	// for the trailing 400 days before the last one.
-	Days []DayDamage `json:"days"`
+	// Days holds one closed bucket per earlier UTC day that saw any time,
+	// oldest first, within the 400 days up to Current; Current is the day
+	// of the last reading, still open (HasCurrent false before any time is
+	// accrued). Closed buckets are never changed, so accumulation shares
+	// them with the ledger it was given and copies only when a day closes.
+	Days       []DayDamage `json:"days"`
+	Current    DayDamage   `json:"current"`
+	HasCurrent bool        `json:"has_current"`
+}
+
+// DayBuckets returns a copy of the ledger's day buckets, closed days and
+// the open day, oldest first.
+func (l *LifeLedger) DayBuckets() []DayDamage {
+	out := make([]DayDamage, len(l.Days), len(l.Days)+1)
+	copy(out, l.Days)
+	if l.HasCurrent {
+		out = append(out, l.Current)
+	}
+	return out
 }
 
 // CapacitorState is the accumulated life of one DC-bus capacitor bank.
@@ -294,15 +310,18 @@ type ledgerCursor struct {
 	agingS     float64
 }
 
+// openCursor starts accumulating onto l. The closed days are shared with l
+// under a capacity limit, so the first append copies them and l's own slice
+// is never written.
 func openCursor(l *LifeLedger) ledgerCursor {
-	c := ledgerCursor{damage: l.Damage, reached: l.Reached, reachedAt: l.ReachedAt, seconds: l.Seconds, agingS: l.AgingS}
 	n := len(l.Days)
-	c.days = make([]DayDamage, n, n+8)
-	copy(c.days, l.Days)
-	if n > 0 {
-		c.cur = c.days[n-1]
-		c.days = c.days[:n-1]
-		c.has = true
+	c := ledgerCursor{
+		days:   l.Days[:n:n],
+		cur:    l.Current,
+		has:    l.HasCurrent,
+		damage: l.Damage, reached: l.Reached, reachedAt: l.ReachedAt, seconds: l.Seconds, agingS: l.AgingS,
+	}
+	if c.has {
 		c.start = int64(c.cur.Day) * lifeSecondsPerDay
 		c.end = c.start + lifeSecondsPerDay
 	}
@@ -379,20 +398,19 @@ func (c *ledgerCursor) moveTo(day int64) {
 	c.end = c.start + lifeSecondsPerDay
 }
 
-// close writes the cursor back into l, keeping the trailing lifeLedgerDays days.
+// close writes the cursor back into l, keeping the closed days within
+// lifeLedgerDays of the open one.
 func (c *ledgerCursor) close(l *LifeLedger) {
 	if c.has {
-		c.days = append(c.days, c.cur)
-	}
-	if n := len(c.days); n > 0 {
-		cut := c.days[n-1].Day - lifeLedgerDays + 1
+		cut := c.cur.Day - lifeLedgerDays + 1
 		i := 0
-		for i < n && c.days[i].Day < cut {
+		for i < len(c.days) && c.days[i].Day < cut {
 			i++
 		}
 		c.days = c.days[i:]
 	}
 	l.Days = c.days
+	l.Current, l.HasCurrent = c.cur, c.has
 	l.Damage = c.damage
 	l.Reached = c.reached
 	l.ReachedAt = c.reachedAt
@@ -589,14 +607,17 @@ func (l *LifeLedger) project(p LifeProjectionParams, at int64) LifeReport {
 	if l.HasLast && at > l.LastAt {
 		r.HoursSinceLast = float64(at-l.LastAt) / lifeSecondsPerHour
 	}
-	n := len(l.Days)
-	if n > 0 {
-		lastDay := l.Days[n-1].Day
+	if l.HasCurrent {
+		lastDay := l.Current.Day
 		nb := p.TrailingDays / p.BlockDays
 		type acc struct{ d, s, as, ts float64 }
 		var tw, pw acc
 		blocks := make([]acc, nb)
-		for _, b := range l.Days {
+		for i := 0; i <= len(l.Days); i++ {
+			b := &l.Current
+			if i < len(l.Days) {
+				b = &l.Days[i]
+			}
 			age := int(lastDay - b.Day)
 			if age >= p.TrailingDays {
 				continue
@@ -945,4 +966,51 @@ func accumulateAggregates(led LifeLedger, aggs []HourAggregate, accumulate func(
 	led.GapS += gapS
 	led.Air.add(rep.Air)
 	return led, rep
+}
+
+// exp2Table holds 2^(j/64) for j = 0..63, the anchors of exp2.
+type exp2Table [64]float64
+
+// newExp2Table returns the anchors, correctly rounded (computed to 60
+// digits with Python's decimal module and checked in the tests against
+// math.Exp2).
+func newExp2Table() exp2Table {
+	return exp2Table{
+		0x1.0000000000000p+0, 0x1.02c9a3e778061p+0, 0x1.059b0d3158574p+0, 0x1.0874518759bc8p+0,
+		0x1.0b5586cf9890fp+0, 0x1.0e3ec32d3d1a2p+0, 0x1.11301d0125b51p+0, 0x1.1429aaea92de0p+0,
+		0x1.172b83c7d517bp+0, 0x1.1a35beb6fcb75p+0, 0x1.1d4873168b9aap+0, 0x1.2063b88628cd6p+0,
+		0x1.2387a6e756238p+0, 0x1.26b4565e27cddp+0, 0x1.29e9df51fdee1p+0, 0x1.2d285a6e4030bp+0,
+		0x1.306fe0a31b715p+0, 0x1.33c08b26416ffp+0, 0x1.371a7373aa9cbp+0, 0x1.3a7db34e59ff7p+0,
+		0x1.3dea64c123422p+0, 0x1.4160a21f72e2ap+0, 0x1.44e086061892dp+0, 0x1.486a2b5c13cd0p+0,
+		0x1.4bfdad5362a27p+0, 0x1.4f9b2769d2ca7p+0, 0x1.5342b569d4f82p+0, 0x1.56f4736b527dap+0,
+		0x1.5ab07dd485429p+0, 0x1.5e76f15ad2148p+0, 0x1.6247eb03a5585p+0, 0x1.6623882552225p+0,
+		0x1.6a09e667f3bcdp+0, 0x1.6dfb23c651a2fp+0, 0x1.71f75e8ec5f74p+0, 0x1.75feb564267c9p+0,
+		0x1.7a11473eb0187p+0, 0x1.7e2f336cf4e62p+0, 0x1.82589994cce13p+0, 0x1.868d99b4492edp+0,
+		0x1.8ace5422aa0dbp+0, 0x1.8f1ae99157736p+0, 0x1.93737b0cdc5e5p+0, 0x1.97d829fde4e50p+0,
+		0x1.9c49182a3f090p+0, 0x1.a0c667b5de565p+0, 0x1.a5503b23e255dp+0, 0x1.a9e6b5579fdbfp+0,
+		0x1.ae89f995ad3adp+0, 0x1.b33a2b84f15fbp+0, 0x1.b7f76f2fb5e47p+0, 0x1.bcc1e904bc1d2p+0,
+		0x1.c199bdd85529cp+0, 0x1.c67f12e57d14bp+0, 0x1.cb720dcef9069p+0, 0x1.d072d4a07897cp+0,
+		0x1.d5818dcfba487p+0, 0x1.da9e603db3285p+0, 0x1.dfc97337b9b5fp+0, 0x1.e502ee78b3ff6p+0,
+		0x1.ea4afa2a490dap+0, 0x1.efa1bee615a27p+0, 0x1.f50765b6e4540p+0, 0x1.fa7c1819e90d8p+0,
+	}
+}
+
+// exp2 returns 2^x within a few units in the last place of math.Exp2 for
+// |x| <= 1000, several times faster: x = k/64 + f with |f| <= 1/128, and
+// 2^x = 2^(k>>6) * 2^((k&63)/64) * e^(f ln2), the last by its Taylor series
+// to degree 5 (truncation below 4e-17 relative) evaluated in Estrin's form so
+// the terms run in parallel. k comes from the round-to-nearest trick of
+// adding and subtracting 1.5 * 2^52. exp2(0) is exactly 1. Outside the
+// range, or for NaN, it defers to math.Exp2.
+func (tab *exp2Table) exp2(x float64) float64 {
+	if !(x >= -1000 && x <= 1000) {
+		return math.Exp2(x)
+	}
+	const shifter = 0x1.8p52
+	kf := (x*64 + shifter) - shifter
+	t := (x - kf*(1.0/64)) * math.Ln2
+	t2 := t * t
+	p := (1 + t) + t2*(1.0/2+t*(1.0/6)) + (t2*t2)*(1.0/24+t*(1.0/120))
+	k := int64(kf)
+	return tab[k&63] * p * math.Float64frombits(uint64(k>>6+1023)<<52)
 }

@@ -252,11 +252,12 @@ func TestAccumulateChunkedEqualsOneShot(t *testing.T) {
 			relDiff(oneRep.DamageAdded, manyRep.DamageAdded) > 1e-9 || one.Air != many.Air || one.LastAt != many.LastAt {
 			t.Fatalf("trial %d: reports differ: %+v vs %+v", trial, oneRep, manyRep)
 		}
-		if len(one.Days) != len(many.Days) {
-			t.Fatalf("trial %d: %d day buckets one-shot, %d chunked", trial, len(one.Days), len(many.Days))
+		oneDays, manyDays := one.DayBuckets(), many.DayBuckets()
+		if len(oneDays) != len(manyDays) {
+			t.Fatalf("trial %d: %d day buckets one-shot, %d chunked", trial, len(oneDays), len(manyDays))
 		}
-		for i := range one.Days {
-			a, b := one.Days[i], many.Days[i]
+		for i := range oneDays {
+			a, b := oneDays[i], manyDays[i]
 			if a.Day != b.Day || relDiff(a.Damage, b.Damage) > 1e-9 || relDiff(a.Seconds, b.Seconds) > 1e-9 || relDiff(a.TempS, b.TempS) > 1e-9 {
 				t.Fatalf("trial %d: day bucket %d differs: %+v vs %+v", trial, i, a, b)
 			}
@@ -275,10 +276,25 @@ func TestAccumulateDoesNotChangeItsInput(t *testing.T) {
 	p := DefaultCapacitorParams()
 	ss := series(1, testT0, 3000, 60, 37.3)
 	st, _, _ := AccumulateCapacitor(spec, p, CapacitorState{}, ss[:1500], LifeAirInputs{})
-	before := st.Days[len(st.Days)-1]
-	_, _, _ = AccumulateCapacitor(spec, p, st, ss[1500:], LifeAirInputs{})
-	if st.Days[len(st.Days)-1] != before {
+	before := st.DayBuckets()
+	// Two different continuations from the same ledger must not disturb
+	// it or each other.
+	a, _, _ := AccumulateCapacitor(spec, p, st, ss[1500:], LifeAirInputs{})
+	b, _, _ := AccumulateCapacitor(spec, p, st, ss[1500:2000], LifeAirInputs{})
+	after := st.DayBuckets()
+	if len(after) != len(before) {
 		t.Fatalf("the ledger passed in was changed")
+	}
+	for i := range before {
+		if before[i] != after[i] {
+			t.Fatalf("the ledger passed in was changed at day %d", i)
+		}
+	}
+	ab, bb := a.DayBuckets(), b.DayBuckets()
+	for i := range len(st.Days) {
+		if ab[i] != before[i] || bb[i] != before[i] {
+			t.Fatalf("a continuation changed a closed day %d", i)
+		}
 	}
 }
 
@@ -337,7 +353,7 @@ func TestAccumulateIntervals(t *testing.T) {
 		ss[3].InternalAirC = math.NaN()
 		ss[3].AmbientC = 41 // ambient + 4
 		ss[4].InternalAirC = math.NaN()
-		ss[4].AmbientC = 45             // ambient alone (no rise given) -> checked below
+		ss[4].AmbientC = 45             // ambient 45 + rise 4
 		ss[5].InternalAirC = math.NaN() // nothing: fill 65
 		est := []float64{math.NaN(), math.NaN(), 45}
 		st, rep, _ := AccumulateCapacitor(spec, p, CapacitorState{}, ss, LifeAirInputs{InternalC: est, RiseOverAmbientC: 4})
@@ -378,11 +394,11 @@ func TestLedgerDaysAndProjection(t *testing.T) {
 	t.Run("constant conditions", func(t *testing.T) {
 		ss := constantSeries(testT0, 500*24+1, 3600, 65, 0)
 		st, _, _ := AccumulateCapacitor(spec, p, CapacitorState{}, ss, LifeAirInputs{})
-		if len(st.Days) != 400 {
-			t.Fatalf("%d day buckets, want the trailing 400", len(st.Days))
+		if days := st.DayBuckets(); len(days) != 400 {
+			t.Fatalf("%d day buckets, want the trailing 400", len(days))
 		}
 		var sum float64
-		for _, d := range st.Days {
+		for _, d := range st.DayBuckets() {
 			sum += d.Damage
 		}
 		if relDiff(sum, 400*24/80000.0) > 1e-9 {
@@ -463,8 +479,8 @@ func TestLedgerDaysAndProjection(t *testing.T) {
 	t.Run("interval across midnight is split", func(t *testing.T) {
 		ss := constantSeries(testT0-1800, 2, 3600, 65, 0) // 23:30 to 00:30
 		st, _, _ := AccumulateCapacitor(spec, p, CapacitorState{}, ss, LifeAirInputs{})
-		if len(st.Days) != 2 || st.Days[0].Seconds != 1800 || st.Days[1].Seconds != 1800 {
-			t.Fatalf("days %+v", st.Days)
+		if days := st.DayBuckets(); len(days) != 2 || days[0].Seconds != 1800 || days[1].Seconds != 1800 {
+			t.Fatalf("days %+v", days)
 		}
 	})
 }
@@ -479,8 +495,8 @@ func TestStoredCapacitor(t *testing.T) {
 		t.Fatalf("damage %v err %v", d, err)
 	}
 	st, err := AddStoredCapacitorPeriod(spec, CapacitorState{}, testT0, testT0+365*86400, 30)
-	if err != nil || relDiff(st.Damage, d) > 1e-12 || st.LastAt != testT0+365*86400 || len(st.Days) != 365 {
-		t.Fatalf("state damage %v (want %v), %d days, err %v", st.Damage, d, len(st.Days), err)
+	if err != nil || relDiff(st.Damage, d) > 1e-12 || st.LastAt != testT0+365*86400 || len(st.DayBuckets()) != 365 {
+		t.Fatalf("state damage %v (want %v), %d days, err %v", st.Damage, d, len(st.DayBuckets()), err)
 	}
 	if _, err := AddStoredCapacitorPeriod(spec, st, testT0, testT0+10, 30); err == nil {
 		t.Fatal("a period before the last reading was accepted")
@@ -598,5 +614,51 @@ func TestParamsValidate(t *testing.T) {
 	}
 	if _, _, err := AccumulateCapacitor(DefaultCapacitorSpec(), DefaultCapacitorParams(), CapacitorState{}, nil, LifeAirInputs{}); err == nil {
 		t.Error("a spec with a ripple term and no reference current was accepted")
+	}
+}
+
+func TestFastExp2AgainstMathExp2(t *testing.T) {
+	// Reference: the standard library's math.Exp2.
+	tab := newExp2Table()
+	for j, v := range tab {
+		// Within one unit in the last place (math.Exp2 itself is not
+		// always correctly rounded: it gives 1.414213562373095 for 2^0.5).
+		want := math.Exp2(float64(j) / 64)
+		if math.Abs(v-want) > math.Nextafter(want, 2)-want {
+			t.Errorf("anchor %d: %v, math.Exp2 %v", j, v, want)
+		}
+	}
+	if tab[32] != math.Sqrt2 || tab[16] != math.Sqrt(math.Sqrt2) {
+		t.Errorf("anchors 2^(1/2) %v and 2^(1/4) %v are not correctly rounded", tab[32], tab[16])
+	}
+	if tab.exp2(0) != 1 {
+		t.Fatalf("exp2(0) = %v, want exactly 1", tab.exp2(0))
+	}
+	rng := rand.New(rand.NewPCG(5, 8))
+	worst := 0.0
+	for i := 0; i < 1_000_000; i++ {
+		x := -60 + 80*rng.Float64()
+		if i%10 == 0 {
+			x = -1000 + 2000*rng.Float64()
+		}
+		worst = math.Max(worst, relDiff(tab.exp2(x), math.Exp2(x)))
+	}
+	if worst > 1e-15 { // a few units in the last place
+		t.Fatalf("worst relative difference from math.Exp2 %v", worst)
+	}
+	for _, x := range []float64{math.NaN(), math.Inf(1), math.Inf(-1), 1100, -1100} {
+		got, want := tab.exp2(x), math.Exp2(x)
+		if got != want && !(math.IsNaN(got) && math.IsNaN(want)) {
+			t.Errorf("exp2(%v) = %v, want %v", x, got, want)
+		}
+	}
+	// The hot-path damage rate agrees with the exported life law.
+	for _, spec := range []CapacitorSpec{rippleSpec(), {RatedLifeH: 5000, RatedTempC: 105, ActivationEnergyEV: 0.8}} {
+		law := newCapLaw(spec)
+		for c := -20.0; c < 140; c += 0.37 {
+			if d := relDiff(law.rateS(c), 1/(spec.LifeH(c)*3600)); d > 1e-14 {
+				t.Fatalf("%s at %v °C: rate and life differ by %v", spec.Law(), c, d)
+			}
+		}
 	}
 }
