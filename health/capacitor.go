@@ -655,7 +655,11 @@ func CapacitorFindings(p CapacitorParams, life CapacitorLifeReport, meas Capacit
 			if meas.HasCapacitance || meas.HasESR {
 				ev = append(ev, capacitorMeasuredEvidence(meas)...)
 			}
-			msg := fmt.Sprintf("The DC-bus capacitors are projected to reach end of life on %s, in %.0f days, by %s.", lifeDate(eol), math.Max(0, days), by)
+			msg := fmt.Sprintf("The DC-bus capacitors are projected to reach end of life on %s, in %.0f days, by %s.", lifeDate(eol), days, by)
+			if days <= 0 {
+				msg = fmt.Sprintf("By %s the DC-bus capacitors are projected to have reached end of life on %s, before this assessment; the readings so far do not show it.",
+					by, lifeDate(eol))
+			}
 			out = append(out, Finding{Rule: "capacitor.end_of_life_near", Kind: KindCapacitor, Severity: sev,
 				Message: msg, Evidence: ev, Remedy: remedyCapacitorNear})
 		}

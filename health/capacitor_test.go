@@ -319,6 +319,7 @@ func TestCapacitorFindings(t *testing.T) {
 		{"60 days left", life(60), CapacitorMeasuredReport{}, map[string]Severity{"capacitor.end_of_life_near": SeverityMajor}},
 		{"200 days left", life(200), CapacitorMeasuredReport{}, map[string]Severity{"capacitor.end_of_life_near": SeverityMinor}},
 		{"400 days left", life(400), CapacitorMeasuredReport{}, map[string]Severity{}},
+		{"projected date already past", life(-3), CapacitorMeasuredReport{}, map[string]Severity{"capacitor.end_of_life_near": SeverityMajor}},
 		{"not projected", CapacitorLifeReport{LifeReport: LifeReport{RemainingH: math.Inf(1), MeanTempC: math.NaN()}, EquivalentCoreC: math.NaN()}, CapacitorMeasuredReport{}, map[string]Severity{}},
 		{"measured 60 % of the way", life(1000), measured(0.6, false), map[string]Severity{"capacitor.measured_degradation": SeverityMinor}},
 		{"measured 85 % of the way", life(1000), measured(0.85, false), map[string]Severity{"capacitor.measured_degradation": SeverityMajor}},

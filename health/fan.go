@@ -319,6 +319,13 @@ func FanFindings(p FanParams, life FanLifeReport, at int64) []Finding {
 		{Name: "end_of_life_earliest", Value: lifeDate(life.EndOfLifeEarliestAt), Source: "harshest month of the trailing year"},
 	}, ev...)
 	return []Finding{{Rule: "fan.end_of_life_near", Kind: KindFan, Severity: sev,
-		Message:  fmt.Sprintf("The cooling fan is projected to reach its L10 life on %s, in %.0f days.", lifeDate(life.EndOfLifeAt), math.Max(0, days)),
+		Message:  fanNearMessage(life, days),
 		Evidence: ev, Remedy: remedyFanNear}}
+}
+
+func fanNearMessage(life FanLifeReport, days float64) string {
+	if days <= 0 {
+		return fmt.Sprintf("The cooling fan is projected to have reached its L10 life on %s; no reading since %s confirms it.", lifeDate(life.EndOfLifeAt), lifeDate(life.LastAt))
+	}
+	return fmt.Sprintf("The cooling fan is projected to reach its L10 life on %s, in %.0f days.", lifeDate(life.EndOfLifeAt), days)
 }

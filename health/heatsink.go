@@ -226,8 +226,8 @@ func HeatsinkTrend(samples []Sample, ratedCurrentA float64, at int64, p Heatsink
 		sxx += bxx
 		sxy += beta * bxx
 		rep.Bins = append(rep.Bins, HeatsinkBinTrend{
-			LoadFromFraction: float64(b) * p.LoadBinFraction,
-			LoadToFraction:   float64(b+1) * p.LoadBinFraction,
+			LoadFromFraction: math.Round(float64(b)*p.LoadBinFraction*1e9) / 1e9,
+			LoadToFraction:   math.Round(float64(b+1)*p.LoadBinFraction*1e9) / 1e9,
 			Weeks:            len(w.week),
 			MeanRiseK:        meanRise[i],
 			LoadSlopeK:       slope,
