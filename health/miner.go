@@ -55,7 +55,7 @@ func MinerDamage(exposures []MinerExposure) float64 {
 //	L = sum(dt_i) / sum(dt_i / L_i)
 //
 // The Hours act as weights, so fractions of time work as well as hours.
-// Returns +Inf when the mix does no damage.
+// Returns +Inf when the mix does no damage. Valid as MinerDamage.
 func MinerLifeH(exposures []MinerExposure) float64 {
 	var t float64
 	for _, e := range exposures {
@@ -907,7 +907,8 @@ func (l *capLaw) logSlope(coreC float64) float64 {
 // AccumulateFan does for raw readings: each bin's fan running time ages at
 // the bin's mean air temperature (FanSpec.LifeH, common practice); gap and
 // missing time is filled at FillAirC with the fan running. The fan control
-// is the one given to BuildHourAggregates.
+// is the one given to BuildHourAggregates. Valid with the accuracy stated
+// there.
 func AccumulateFanAggregates(spec FanSpec, p FanParams, st FanState, aggs []HourAggregate) (FanState, AccumulationReport, error) {
 	if err := spec.Validate(); err != nil {
 		return st, AccumulationReport{}, fmt.Errorf("accumulate fan aggregates: %w", err)
