@@ -135,7 +135,9 @@ func clamp01(x float64) float64 {
 // is 1.0 for criticality A (and unknown), 0.8 for B, 0.6 for C, and the
 // risk score is R = 100 × D × weight. Band: below 20 sound, below 40 watch,
 // below 60 plan, 60 and above urgent (scores rounded to 6 decimals before
-// banding); so one critical finding makes an A
+// banding), except that a drive with any open finding above advice is at
+// least watch, so an open problem never reads as sound; so one critical
+// finding makes an A
 // or B drive urgent and a C drive plan, and capacitors at 90 % of life make
 // an A drive urgent. NaN life fractions count as no wear.
 //
@@ -173,10 +175,14 @@ func AssessRisk(in RiskInput) RiskAssessment {
 	// one minor finding (100 × (1 - 0.8) = 20) band as documented.
 	round6 := func(x float64) float64 { return math.Round(x*1e6) / 1e6 }
 	r := round6(math.Min(100*d*w, 100))
+	band := BandFor(r)
+	if band == BandSound && f.Critical+f.Major+f.Minor > 0 {
+		band = BandWatch
+	}
 	return RiskAssessment{
 		HealthScore:   round6(100 * (1 - d)),
 		RiskScore:     r,
-		Band:          BandFor(r),
+		Band:          band,
 		Condition:     d,
 		Consequence:   w,
 		Contributions: contrib,
