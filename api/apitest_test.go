@@ -24,10 +24,21 @@ type harness struct {
 	admin string
 }
 
+type apiConfig = api.Config
+
 func newHarness(t *testing.T, d store.Dialect) *harness {
 	t.Helper()
-	st := storetest.Open(t, d)
-	srv, err := api.New(api.Config{Version: "test"}, st, nil)
+	return newHarnessWith(t, storetest.Open(t, d), nil)
+}
+
+// newHarnessWith builds a harness on st with the config changed by edit.
+func newHarnessWith(t *testing.T, st *store.Store, edit func(*api.Config)) *harness {
+	t.Helper()
+	cfg := api.Config{Version: "test"}
+	if edit != nil {
+		edit(&cfg)
+	}
+	srv, err := api.New(cfg, st, nil)
 	if err != nil {
 		t.Fatal(err)
 	}

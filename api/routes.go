@@ -60,6 +60,12 @@ func (s *Server) routes() {
 		Response: map[string]string{}}, s.health)
 	s.route(operation{Method: http.MethodGet, Path: "/readyz", Summary: "Readiness: the database answers and migrations are current", Tag: "probes",
 		Response: map[string]string{}}, s.ready)
+	metricsRole := store.Role("")
+	if s.cfg.MetricsToken {
+		metricsRole = store.RoleViewer
+	}
+	s.route(operation{Method: http.MethodGet, Path: "/metrics", Summary: "Prometheus metrics (text exposition format)", Tag: "probes",
+		Role: metricsRole}, s.metricsHandler())
 	s.route(operation{Method: http.MethodGet, Path: "/api/v1/openapi.json", Summary: "This API's OpenAPI 3 document", Tag: "meta",
 		Response: map[string]any{}}, s.openAPIHandler)
 

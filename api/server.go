@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"github.com/gin-gonic/gin"
+	"github.com/prometheus/client_golang/prometheus"
 
 	"kelvard/store"
 )
@@ -30,6 +31,17 @@ type Config struct {
 	// Ready, when set, is asked by /readyz besides the database checks (the
 	// demo loader, say, holds readiness until its first assessment).
 	Ready func(ctx context.Context) error
+	// Registry is the Prometheus registry /metrics serves; nil makes a new
+	// one. Other packages register their counters on it.
+	Registry *prometheus.Registry
+	// PerDriveMetricsLimit is the largest fleet for which per-drive series
+	// are exported (default 10 000; past that one series per drive stops
+	// being a monitoring job and the API serves the values).
+	PerDriveMetricsLimit int
+	// MetricsToken requires a bearer token (any role) on /metrics.
+	MetricsToken bool
+	// JobStats reports each job's last run for the job metrics.
+	JobStats func(ctx context.Context) ([]JobStat, error)
 }
 
 // Server is kelvard's HTTP handler.
@@ -39,6 +51,8 @@ type Server struct {
 	log    *slog.Logger
 	engine *gin.Engine
 	ops    []operation
+	// registry is what /metrics serves.
+	registry *prometheus.Registry
 	// migrated caches a positive migrations check: once current, a running
 	// binary's schema stays current.
 	migrated atomic.Bool
@@ -66,6 +80,11 @@ func New(cfg Config, st *store.Store, log *slog.Logger) (*Server, error) {
 		return nil, err
 	}
 	s := &Server{cfg: cfg, store: st, log: log, engine: e}
+	reg, err := s.newRegistry()
+	if err != nil {
+		return nil, err
+	}
+	s.registry = reg
 	e.Use(s.recoverPanics, s.accessLog, s.securityHeaders)
 	e.NoRoute(func(c *gin.Context) {
 		writeProblem(c, Problem{Status: http.StatusNotFound, Detail: "no such endpoint; see /api/v1/openapi.json"})

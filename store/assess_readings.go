@@ -1,0 +1,295 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+	"math"
+	"time"
+
+	"github.com/jackc/pgx/v5/pgtype"
+	"github.com/jackc/pgx/v5/stdlib"
+	"gorm.io/gorm"
+
+	"kelvard/health"
+)
+
+// The readings table keeps `at` as timestamptz on PostgreSQL and as
+// integer Unix microseconds on SQLite (see migrations 00002); so do the
+// watermarks. timeArg and dbTime bridge the two.
+
+// timeArg returns t in the form the readings and watermark columns take.
+func (s *Store) timeArg(t time.Time) any {
+	if s.dialect == SQLite {
+		return t.UnixMicro()
+	}
+	return t.UTC()
+}
+
+// dbTime scans a readings-table time from either dialect.
+type dbTime struct {
+	T     time.Time
+	Valid bool
+}
+
+// Scan implements sql.Scanner.
+func (d *dbTime) Scan(v any) error {
+	switch x := v.(type) {
+	case nil:
+		d.Valid = false
+	case time.Time:
+		d.T, d.Valid = x.UTC(), true
+	case int64:
+		d.T, d.Valid = time.UnixMicro(x).UTC(), true
+	default:
+		return fmt.Errorf("scan time from %T", v)
+	}
+	return nil
+}
+
+func (d dbTime) ptr() *time.Time {
+	if !d.Valid {
+		return nil
+	}
+	t := d.T
+	return &t
+}
+
+// watermark is a row of drive_watermarks.
+type watermark struct {
+	DriveID       int64
+	AssessedTo    *time.Time
+	RecomputeFrom *time.Time
+}
+
+// loadWatermarks reads the watermarks of a batch of drives.
+func (s *Store) loadWatermarks(ctx context.Context, db *gorm.DB, ids []int64) ([]watermark, error) {
+	rows, err := db.WithContext(ctx).Raw("SELECT drive_id, assessed_to, recompute_from FROM drive_watermarks WHERE drive_id IN ?", uniq(ids)).Rows()
+	if err != nil {
+		return nil, fmt.Errorf("load watermarks: %w", translate(err))
+	}
+	defer rows.Close()
+	var out []watermark
+	for rows.Next() {
+		var w watermark
+		var a, r dbTime
+		if err := rows.Scan(&w.DriveID, &a, &r); err != nil {
+			return nil, fmt.Errorf("scan watermark: %w", err)
+		}
+		w.AssessedTo, w.RecomputeFrom = a.ptr(), r.ptr()
+		out = append(out, w)
+	}
+	return out, rows.Err()
+}
+
+// latestReadings returns each drive's newest reading time, one index probe
+// per drive.
+func (s *Store) latestReadings(ctx context.Context, ids []int64) (map[int64]time.Time, error) {
+	rows, err := s.db.WithContext(ctx).Raw(
+		"SELECT d.id, (SELECT max(r.at) FROM readings r WHERE r.drive_id = d.id) FROM drives d WHERE d.id IN ?", uniq(ids)).Rows()
+	if err != nil {
+		return nil, fmt.Errorf("latest readings: %w", translate(err))
+	}
+	defer rows.Close()
+	out := map[int64]time.Time{}
+	for rows.Next() {
+		var id int64
+		var t dbTime
+		if err := rows.Scan(&id, &t); err != nil {
+			return nil, fmt.Errorf("scan latest reading: %w", err)
+		}
+		if t.Valid {
+			out[id] = t.T
+		}
+	}
+	return out, rows.Err()
+}
+
+// ScanFrom asks for one drive's readings after a time.
+type ScanFrom struct {
+	DriveID int64
+	// After is exclusive: readings with at > After.
+	After time.Time
+}
+
+// ScanReadings streams the readings of several drives, each after its own
+// time, ordered by drive and time, as model samples (at second resolution)
+// with their exact time. fn sees each reading once; an error from fn stops
+// the scan.
+func (s *Store) ScanReadings(ctx context.Context, from []ScanFrom, fn func(driveID, positionID int64, at time.Time, smp health.Sample) error) error {
+	if len(from) == 0 {
+		return nil
+	}
+	if s.dialect == Postgres {
+		return s.scanReadingsPG(ctx, from, fn)
+	}
+	return s.scanReadingsSQLite(ctx, from, fn)
+}
+
+const readingColumns = "r.drive_id, r.position_id, r.at, r.internal_air_c, r.ambient_c, r.heatsink_c, r.current_a, r.peak_current_a, " +
+	"r.frequency_hz, r.bus_v, r.bus_ripple_v, r.capacitance_uf, r.esr_milliohm"
+
+// scanReadingsPG reads with pgx directly on a pooled connection: binary
+// rows and no database/sql conversion, which matters at millions of rows.
+func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int64, int64, time.Time, health.Sample) error) error {
+	ids := make([]int64, len(from))
+	afters := make([]time.Time, len(from))
+	for i, f := range from {
+		ids[i], afters[i] = f.DriveID, f.After.UTC()
+	}
+	conn, err := s.sqlDB.Conn(ctx)
+	if err != nil {
+		return fmt.Errorf("scan readings: %w", translate(err))
+	}
+	defer conn.Close()
+	return conn.Raw(func(dc any) error {
+		pc := dc.(*stdlib.Conn).Conn()
+		rows, err := pc.Query(ctx, "SELECT "+readingColumns+
+			" FROM unnest($1::bigint[], $2::timestamptz[]) AS w(drive_id, after_at)"+
+			" JOIN readings r ON r.drive_id = w.drive_id AND r.at > w.after_at ORDER BY r.drive_id, r.at",
+			ids, afters)
+		if err != nil {
+			return fmt.Errorf("scan readings: %w", translate(err))
+		}
+		defer rows.Close()
+		var (
+			d, p int64
+			at   time.Time
+			v    [10]pgtype.Float8
+		)
+		dest := []any{&d, &p, &at}
+		for i := range v {
+			dest = append(dest, &v[i])
+		}
+		for rows.Next() {
+			if err := rows.Scan(dest...); err != nil {
+				return fmt.Errorf("scan reading: %w", err)
+			}
+			if err := fn(d, p, at.UTC(), sampleOf(at.Unix(), pgFloats(&v))); err != nil {
+				return err
+			}
+		}
+		if err := rows.Err(); err != nil {
+			return fmt.Errorf("scan readings: %w", translate(err))
+		}
+		return nil
+	})
+}
+
+func pgFloats(v *[10]pgtype.Float8) [10]float64 {
+	var out [10]float64
+	for i, f := range v {
+		if f.Valid {
+			out[i] = f.Float64
+		} else {
+			out[i] = math.NaN()
+		}
+	}
+	return out
+}
+
+func (s *Store) scanReadingsSQLite(ctx context.Context, from []ScanFrom, fn func(int64, int64, time.Time, health.Sample) error) error {
+	for _, f := range from {
+		rows, err := s.sqlDB.QueryContext(ctx, "SELECT "+readingColumns+" FROM readings r WHERE r.drive_id = ? AND r.at > ? ORDER BY r.at",
+			f.DriveID, f.After.UnixMicro())
+		if err != nil {
+			return fmt.Errorf("scan readings of drive %d: %w", f.DriveID, translate(err))
+		}
+		if err := scanSQLiteRows(rows, fn); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func scanSQLiteRows(rows *sql.Rows, fn func(int64, int64, time.Time, health.Sample) error) error {
+	defer rows.Close()
+	var (
+		d, p, at int64
+		v        [10]sql.NullFloat64
+	)
+	dest := []any{&d, &p, &at}
+	for i := range v {
+		dest = append(dest, &v[i])
+	}
+	for rows.Next() {
+		if err := rows.Scan(dest...); err != nil {
+			return fmt.Errorf("scan reading: %w", err)
+		}
+		var f [10]float64
+		for i, x := range v {
+			if x.Valid {
+				f[i] = x.Float64
+			} else {
+				f[i] = math.NaN()
+			}
+		}
+		t := time.UnixMicro(at).UTC()
+		if err := fn(d, p, t, sampleOf(t.Unix(), f)); err != nil {
+			return err
+		}
+	}
+	if err := rows.Err(); err != nil {
+		return fmt.Errorf("scan readings: %w", translate(err))
+	}
+	return nil
+}
+
+// sampleOf builds a sample from the columns after drive, position and at,
+// in readingColumns order.
+func sampleOf(at int64, v [10]float64) health.Sample {
+	return health.Sample{At: at, InternalAirC: v[0], AmbientC: v[1], HeatsinkC: v[2], CurrentA: v[3], PeakCurrentA: v[4],
+		FrequencyHz: v[5], BusV: v[6], BusRippleV: v[7], CapacitanceUF: v[8], ESRMilliohm: v[9]}
+}
+
+// advanceWatermark records how far a drive's readings are assessed. It
+// clears the recompute mark only when it is still the one the run started
+// from, so a late reading that arrived during the run keeps its mark; and
+// when readings landed inside the range the run covered without being seen
+// (an ingest that committed mid-run), it sets the mark so the next run
+// recomputes.
+func (s *Store) advanceWatermark(tx *gorm.DB, r *AssessResult) error {
+	if r.AssessedTo == nil {
+		return nil
+	}
+	var seen any
+	if r.RecomputeSeen != nil {
+		seen = s.timeArg(*r.RecomputeSeen)
+	}
+	to := s.timeArg(*r.AssessedTo)
+	same := "drive_watermarks.recompute_from IS NOT DISTINCT FROM ?"
+	if s.dialect == SQLite {
+		same = "drive_watermarks.recompute_from IS ?"
+	}
+	err := tx.Exec(`INSERT INTO drive_watermarks (drive_id, assessed_to, recompute_from) VALUES (?, ?, NULL)
+		ON CONFLICT (drive_id) DO UPDATE SET assessed_to = excluded.assessed_to,
+		recompute_from = CASE WHEN `+same+` THEN NULL ELSE drive_watermarks.recompute_from END`,
+		r.DriveID, to, seen).Error
+	if err != nil {
+		return fmt.Errorf("advance watermark of drive %d: %w", r.DriveID, translate(err))
+	}
+	return nil
+}
+
+// markMissed sets the recompute mark when readings exist in the range the
+// run covered, (ScannedAfter, AssessedTo], beyond the count it saw there:
+// an ingest that committed mid-run is caught by the next run.
+func (s *Store) markMissed(tx *gorm.DB, r *AssessResult) error {
+	if r.AssessedTo == nil || r.ScannedAfter == nil {
+		return nil
+	}
+	var n int64
+	err := tx.Raw("SELECT count(*) FROM readings WHERE drive_id = ? AND at > ? AND at <= ?",
+		r.DriveID, s.timeArg(*r.ScannedAfter), s.timeArg(*r.AssessedTo)).Scan(&n).Error
+	if err != nil {
+		return fmt.Errorf("count readings of drive %d: %w", r.DriveID, translate(err))
+	}
+	if n == r.Scanned {
+		return nil
+	}
+	err = tx.Exec("UPDATE drive_watermarks SET recompute_from = ? WHERE drive_id = ?", s.timeArg(*r.ScannedAfter), r.DriveID).Error
+	if err != nil {
+		return fmt.Errorf("mark drive %d: %w", r.DriveID, translate(err))
+	}
+	return nil
+}
