@@ -29,12 +29,12 @@ type FleetSnapshot struct {
 
 // DriveMetric is one drive's exported values.
 type DriveMetric struct {
-	Serial              string
-	Position            string
-	Site                string
-	CapacitorLifeUsed   float64
-	FanLifeUsed         float64
-	Utilisation         *float64
+	Serial            string
+	Position          string
+	Site              string
+	CapacitorLifeUsed float64
+	FanLifeUsed       float64
+	Utilisation       *float64
 }
 
 // EndOfLifeWindows are the horizons of kelvard_capacitor_end_of_life_drives.
@@ -95,7 +95,7 @@ func (s *Store) Snapshot(ctx context.Context, now time.Time, perDriveLimit int) 
 		return snap, nil
 	}
 	err = db.Table("assessments a").
-		Select("d.serial, COALESCE(p.tag, '') AS position, s.name AS site, a.capacitor_life_used_fraction AS capacitor_life_used, "+
+		Select("d.serial, COALESCE(p.tag, '') AS position, s.name AS site, a.capacitor_life_used_fraction AS capacitor_life_used, " +
 			"a.fan_life_used_fraction AS fan_life_used, a.utilisation_fraction AS utilisation").
 		Joins("JOIN drives d ON d.id = a.drive_id").
 		Joins("JOIN sites s ON s.id = a.site_id").
