@@ -619,7 +619,7 @@ func CapacitorFindings(p CapacitorParams, life CapacitorLifeReport, meas Capacit
 				t.Quantity, t.Latest, t.Unit, t.Limit, t.Unit, t.Initial, lifeDate(t.CrossedAt))
 			ev = append(ev, capacitorMeasuredEvidence(meas)...)
 		}
-		return append(out, Finding{Rule: "capacitor.end_of_life", Kind: KindCapacitor, Severity: SeverityCritical,
+		return append(out, Finding{PhysicalWork: true, Rule: "capacitor.end_of_life", Kind: KindCapacitor, Severity: SeverityCritical,
 			Message: msg, Evidence: ev, Remedy: remedyCapacitorEnd})
 	}
 	// The earlier of the two projections.
@@ -660,7 +660,7 @@ func CapacitorFindings(p CapacitorParams, life CapacitorLifeReport, meas Capacit
 				msg = fmt.Sprintf("By %s the DC-bus capacitors are projected to have reached end of life on %s, before this assessment; the readings so far do not show it.",
 					by, lifeDate(eol))
 			}
-			out = append(out, Finding{Rule: "capacitor.end_of_life_near", Kind: KindCapacitor, Severity: sev,
+			out = append(out, Finding{PhysicalWork: true, Rule: "capacitor.end_of_life_near", Kind: KindCapacitor, Severity: sev,
 				Message: msg, Evidence: ev, Remedy: remedyCapacitorNear})
 		}
 	}
@@ -680,7 +680,7 @@ func CapacitorFindings(p CapacitorParams, life CapacitorLifeReport, meas Capacit
 		ev := append([]Evidence{
 			{Name: worst.Quantity + "_progress_fraction", Value: worst.Progress, Limit: p.WarnProgressFraction, Source: "common practice"},
 		}, capacitorMeasuredEvidence(meas)...)
-		out = append(out, Finding{Rule: "capacitor.measured_degradation", Kind: KindCapacitor, Severity: sev,
+		out = append(out, Finding{PhysicalWork: true, Rule: "capacitor.measured_degradation", Kind: KindCapacitor, Severity: sev,
 			Message: msg, Evidence: ev, Remedy: remedyCapacitorMeasured})
 	}
 	return out

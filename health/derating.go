@@ -580,13 +580,10 @@ func drFinding(rules []RuleInfo, id string, sev Severity, msg string, ev []Evide
 		panic("health: rule " + id + " is not listed") // a programming error, caught by the tests
 	}
 	remedy := rules[i].Remedy
-	if physical {
-		remedy += " " + SafetyCaution
-	}
 	for j := range ev { // NaN and infinities cannot be encoded as JSON: an unknown is nil
 		ev[j].Value, ev[j].Limit = drFinite(ev[j].Value), drFinite(ev[j].Limit)
 	}
-	return Finding{Rule: id, Kind: rules[i].Kind, Severity: sev, Message: msg, Evidence: ev, Remedy: remedy}
+	return Finding{Rule: id, Kind: rules[i].Kind, Severity: sev, Message: msg, Evidence: ev, Remedy: remedy, PhysicalWork: physical}
 }
 
 // drFinite returns nil for a NaN or infinite float64 and v otherwise.

@@ -352,8 +352,8 @@ func TestSafetyCautionOnPhysicalRemedies(t *testing.T) {
 	}
 	for _, f := range fs {
 		physical := f.Rule == "derating.single_phase_supply"
-		if strings.Contains(f.Remedy, SafetyCaution) != physical {
-			t.Errorf("%s: caution present %v, want %v", f.Rule, !physical, physical)
+		if f.PhysicalWork != physical || strings.Contains(f.Remedy, SafetyCaution) {
+			t.Errorf("%s: physical work %v, want %v (the caution is shown beside the remedy, not in it)", f.Rule, f.PhysicalWork, physical)
 		}
 	}
 }

@@ -558,7 +558,7 @@ func JudgeEnclosure(env Environment, h Housing) EnclosureReport {
 		}
 		r.Checks = append(r.Checks, c)
 		if c.Verdict != VerdictPass {
-			r.Findings = append(r.Findings, Finding{Rule: c.Rule, Kind: c.Kind, Severity: c.Severity,
+			r.Findings = append(r.Findings, Finding{PhysicalWork: true, Rule: c.Rule, Kind: c.Kind, Severity: c.Severity,
 				Message: c.Message, Evidence: c.Evidence, Remedy: c.Remedy})
 		}
 	}

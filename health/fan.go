@@ -297,7 +297,7 @@ func FanFindings(p FanParams, life FanLifeReport, at int64) []Finding {
 		{Name: "halving_c", Value: life.HalvingC, Unit: "°C", Source: "common practice"},
 	}
 	if life.EndReached {
-		return []Finding{{Rule: "fan.end_of_life", Kind: KindFan, Severity: SeverityMajor,
+		return []Finding{{PhysicalWork: true, Rule: "fan.end_of_life", Kind: KindFan, Severity: SeverityMajor,
 			Message:  fmt.Sprintf("The cooling fan has run past its L10 life (%.0f %% used), reached on %s.", life.LifeUsedFraction*100, lifeDate(life.EndReachedAt)),
 			Evidence: ev, Remedy: remedyFanEnd}}
 	}
@@ -318,7 +318,7 @@ func FanFindings(p FanParams, life FanLifeReport, at int64) []Finding {
 		{Name: "remaining_h", Value: life.RemainingH, Unit: "h"},
 		{Name: "end_of_life_earliest", Value: lifeDate(life.EndOfLifeEarliestAt), Source: "harshest month of the trailing year"},
 	}, ev...)
-	return []Finding{{Rule: "fan.end_of_life_near", Kind: KindFan, Severity: sev,
+	return []Finding{{PhysicalWork: true, Rule: "fan.end_of_life_near", Kind: KindFan, Severity: sev,
 		Message:  fanNearMessage(life, days),
 		Evidence: ev, Remedy: remedyFanNear}}
 }

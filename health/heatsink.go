@@ -261,7 +261,7 @@ func HeatsinkFindings(r HeatsinkTrendReport, p HeatsinkParams) []Finding {
 		sev = SeverityMajor
 	}
 	return []Finding{{
-		Rule: "fan.heatsink_rise", Kind: KindFan, Severity: sev,
+		PhysicalWork: true, Rule: "fan.heatsink_rise", Kind: KindFan, Severity: sev,
 		Message: fmt.Sprintf("At the same load the heatsink runs %.1f K hotter over ambient than %.0f weeks ago (%.2f K per week): a clogged filter, a dirty heatsink or a failing fan.",
 			r.IncreaseK, r.WeeksSpanned, r.SlopeKPerWeek),
 		Evidence: []Evidence{

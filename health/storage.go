@@ -197,11 +197,11 @@ func StorageFindings(a StorageAdvice, p StorageParams) []Finding {
 	}
 	switch a.Action {
 	case StorageEnergiseSoon:
-		return []Finding{{Rule: "storage.energise_due", Kind: KindStorage, Severity: SeverityAdvice,
+		return []Finding{{PhysicalWork: true, Rule: "storage.energise_due", Kind: KindStorage, Severity: SeverityAdvice,
 			Message:  fmt.Sprintf("The drive has stood unpowered for %.0f days; energise it by %s to keep its capacitors formed.", a.DaysUnpowered, lifeDate(a.DueAt)),
 			Evidence: ev, Remedy: "Energise the drive before the due date and record it."}}
 	case StorageNoLoadRun:
-		return []Finding{{Rule: "storage.energise_due", Kind: KindStorage, Severity: SeverityMinor,
+		return []Finding{{PhysicalWork: true, Rule: "storage.energise_due", Kind: KindStorage, Severity: SeverityMinor,
 			Message: fmt.Sprintf("The drive has stood unpowered for %.0f days, more than the %.0f-day interval; energise it at no load for %.0f to %.0f minutes before use.",
 				a.DaysUnpowered, p.EnergiseEveryDays, p.NoLoadMinutesMin, p.NoLoadMinutesMax),
 			Evidence: ev, Remedy: fmt.Sprintf("Energise the drive at no load for %.0f to %.0f minutes and record the date.", p.NoLoadMinutesMin, p.NoLoadMinutesMax)}}
@@ -214,7 +214,7 @@ func StorageFindings(a StorageAdvice, p StorageParams) []Finding {
 			steps += fmt.Sprintf("%.0f %%", f*100)
 		}
 		ev = append(ev, Evidence{Name: "reform_steps_fraction_of_bus_voltage", Value: p.ReformSteps, Source: "common practice"})
-		return []Finding{{Rule: "storage.reform_required", Kind: KindStorage, Severity: SeverityMajor,
+		return []Finding{{PhysicalWork: true, Rule: "storage.reform_required", Kind: KindStorage, Severity: SeverityMajor,
 			Message: fmt.Sprintf("The drive has stood unpowered for %.0f days, more than %.0f; its DC-bus capacitors must be reformed before it goes into service.",
 				a.DaysUnpowered, p.ReformAfterDays),
 			Evidence: ev, Remedy: fmt.Sprintf("Reform the DC-bus capacitors in steps of %s of bus voltage, following the drive maker's procedure, before use.", steps)}}

@@ -108,6 +108,10 @@ type Finding struct {
 	Message  string     `json:"message"`
 	Evidence []Evidence `json:"evidence"`
 	Remedy   string     `json:"remedy"`
+	// PhysicalWork is true when the remedy means work on or at the drive;
+	// front ends then show SafetyCaution beside it and planning may turn
+	// the finding into a work order.
+	PhysicalWork bool `json:"physical_work"`
 }
 
 // Location says whether an area is indoors or outdoors.

@@ -34,35 +34,48 @@ func FindingStatuses() []FindingStatus {
 // Finding is one rule holding for one drive, with its lifecycle. One
 // unresolved finding exists per (drive, rule); resolved ones are history.
 type Finding struct {
-	ID              int64             `json:"id" gorm:"primaryKey"`
-	DriveID         int64             `json:"drive_id"`
-	SiteID          int64             `json:"site_id"`
-	AreaID          *int64            `json:"area_id"`
-	PositionID      *int64            `json:"position_id"`
-	Rule            string            `json:"rule"`
-	Kind            health.Kind       `json:"kind"`
-	Severity        health.Severity   `json:"severity"`
-	Status          FindingStatus     `json:"status"`
-	Message         string            `json:"message"`
-	Evidence        []health.Evidence `json:"evidence" gorm:"serializer:json"`
-	Remedy          string            `json:"remedy"`
-	FirstSeenAt     time.Time         `json:"first_seen_at"`
-	LastSeenAt      time.Time         `json:"last_seen_at"`
-	ClearedAt       *time.Time        `json:"cleared_at"`
-	ResolvedAt      *time.Time        `json:"resolved_at"`
-	AcknowledgedAt  *time.Time        `json:"acknowledged_at"`
-	AcknowledgedBy  string            `json:"acknowledged_by"`
-	SuppressedAt    *time.Time        `json:"suppressed_at"`
-	SuppressedBy    string            `json:"suppressed_by"`
-	SuppressedUntil *time.Time        `json:"suppressed_until"`
-	StatusReason    string            `json:"status_reason"`
-	CreatedAt       time.Time         `json:"created_at"`
-	UpdatedAt       time.Time         `json:"updated_at"`
+	ID           int64             `json:"id" gorm:"primaryKey"`
+	DriveID      int64             `json:"drive_id"`
+	SiteID       int64             `json:"site_id"`
+	AreaID       *int64            `json:"area_id"`
+	PositionID   *int64            `json:"position_id"`
+	Rule         string            `json:"rule"`
+	Kind         health.Kind       `json:"kind"`
+	Severity     health.Severity   `json:"severity"`
+	Status       FindingStatus     `json:"status"`
+	Message      string            `json:"message"`
+	Evidence     []health.Evidence `json:"evidence" gorm:"serializer:json"`
+	Remedy       string            `json:"remedy"`
+	PhysicalWork bool              `json:"physical_work"`
+	// Caution is health.SafetyCaution when the remedy means physical work.
+	Caution         string     `json:"caution,omitempty" gorm:"-"`
+	FirstSeenAt     time.Time  `json:"first_seen_at"`
+	LastSeenAt      time.Time  `json:"last_seen_at"`
+	ClearedAt       *time.Time `json:"cleared_at"`
+	ResolvedAt      *time.Time `json:"resolved_at"`
+	AcknowledgedAt  *time.Time `json:"acknowledged_at"`
+	AcknowledgedBy  string     `json:"acknowledged_by"`
+	SuppressedAt    *time.Time `json:"suppressed_at"`
+	SuppressedBy    string     `json:"suppressed_by"`
+	SuppressedUntil *time.Time `json:"suppressed_until"`
+	StatusReason    string     `json:"status_reason"`
+	CreatedAt       time.Time  `json:"created_at"`
+	UpdatedAt       time.Time  `json:"updated_at"`
 }
 
 // Health returns the finding in the models' form.
 func (f Finding) Health() health.Finding {
-	return health.Finding{Rule: f.Rule, Kind: f.Kind, Severity: f.Severity, Message: f.Message, Evidence: f.Evidence, Remedy: f.Remedy}
+	return health.Finding{Rule: f.Rule, Kind: f.Kind, Severity: f.Severity, Message: f.Message, Evidence: f.Evidence, Remedy: f.Remedy,
+		PhysicalWork: f.PhysicalWork}
+}
+
+// AfterFind adds the safety caution to findings that propose physical work,
+// so every answer that carries such a remedy carries the caution too.
+func (f *Finding) AfterFind(*gorm.DB) error {
+	if f.PhysicalWork {
+		f.Caution = health.SafetyCaution
+	}
+	return nil
 }
 
 // FindingFilters are the query parameters of the findings list.
@@ -244,7 +257,7 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 	for _, h := range u.Current {
 		if f, ok := byRule[h.Rule]; ok {
 			delete(byRule, h.Rule)
-			changed := f.Severity != h.Severity || f.Message != h.Message || f.ClearedAt != nil ||
+			changed := f.Severity != h.Severity || f.Message != h.Message || f.ClearedAt != nil || f.PhysicalWork != h.PhysicalWork ||
 				!slices.Equal(ptrVal(f.PositionID), ptrVal(u.PositionID)) || !evidenceEqual(f.Evidence, h.Evidence)
 			expired := f.Status == FindingSuppressed && f.SuppressedUntil != nil && !u.At.Before(*f.SuppressedUntil)
 			if expired {
@@ -252,7 +265,7 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 				f.SuppressedAt, f.SuppressedBy, f.SuppressedUntil = nil, "", nil
 				changed = true
 			}
-			f.Severity, f.Message, f.Evidence, f.Remedy, f.Kind = h.Severity, h.Message, h.Evidence, h.Remedy, h.Kind
+			f.Severity, f.Message, f.Evidence, f.Remedy, f.Kind, f.PhysicalWork = h.Severity, h.Message, h.Evidence, h.Remedy, h.Kind, h.PhysicalWork
 			f.SiteID, f.AreaID, f.PositionID, f.ClearedAt = u.SiteID, u.AreaID, u.PositionID, nil
 			f.LastSeenAt = u.At
 			if !changed {
@@ -270,7 +283,7 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 		}
 		f := Finding{DriveID: u.DriveID, SiteID: u.SiteID, AreaID: u.AreaID, PositionID: u.PositionID, Rule: h.Rule, Kind: h.Kind,
 			Severity: h.Severity, Status: FindingOpen, Message: h.Message, Evidence: h.Evidence, Remedy: h.Remedy,
-			FirstSeenAt: u.At, LastSeenAt: u.At}
+			PhysicalWork: h.PhysicalWork, FirstSeenAt: u.At, LastSeenAt: u.At}
 		if f.Evidence == nil {
 			f.Evidence = []health.Evidence{}
 		}

@@ -64,6 +64,7 @@ CREATE TABLE findings (
     message           text NOT NULL,
     evidence          jsonb NOT NULL,
     remedy            text NOT NULL,
+    physical_work     boolean NOT NULL DEFAULT false,
     first_seen_at     timestamptz NOT NULL,
     last_seen_at      timestamptz NOT NULL,
     cleared_at        timestamptz,
