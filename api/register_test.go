@@ -51,7 +51,12 @@ func TestRegisterEndpoints(t *testing.T) {
 			patch map[string]any
 			check func(map[string]any) bool
 		}{
-			{fmt.Sprintf("/api/v1/sites/%d", f.site), map[string]any{"notes": "coastal"}, func(m map[string]any) bool { return m["notes"] == "coastal" }},
+			{fmt.Sprintf("/api/v1/sites/%d", f.site), map[string]any{"notes": "coastal", "parameters": map[string]any{"data_quality": map[string]any{"silent_after_s": 7200}}},
+				func(m map[string]any) bool {
+					p, _ := m["parameters"].(map[string]any)
+					dq, _ := p["data_quality"].(map[string]any)
+					return m["notes"] == "coastal" && dq["silent_after_s"] == 7200.0
+				}},
 			{fmt.Sprintf("/api/v1/areas/%d", f.area), map[string]any{"environment": map[string]any{"corrosion": "G2"}},
 				func(m map[string]any) bool {
 					env := m["environment"].(map[string]any)
@@ -150,6 +155,8 @@ func TestValidationAnswers(t *testing.T) {
 				[]string{"carrier_derate[0].carrier_khz", "carrier_derate[0].fraction"}},
 			{"cabinet missing", "PATCH", fmt.Sprintf("/api/v1/positions/%d", f.position), map[string]any{"cabinet": map[string]any{"cooling": "fan_ventilated"}}, 422,
 				[]string{"cabinet.airflow_m3_per_h"}},
+			{"parameters out of range", "PATCH", fmt.Sprintf("/api/v1/sites/%d", f.site), map[string]any{"parameters": map[string]any{"capacitor": map[string]any{"horizon_days": -5}}}, 422, []string{"parameters"}},
+			{"parameters unknown", "PATCH", fmt.Sprintf("/api/v1/areas/%d", f.area), map[string]any{"parameters": map[string]any{"colour": 1}}, 422, []string{"parameters"}},
 			{"patch unlisted field", "PATCH", fmt.Sprintf("/api/v1/areas/%d", f.area), map[string]any{"site_id": 1}, 400, []string{"site_id"}},
 			{"patch created_at", "PATCH", fmt.Sprintf("/api/v1/sites/%d", f.site), map[string]any{"created_at": "2020-01-01T00:00:00Z"}, 400, []string{"created_at"}},
 			{"status installed directly", "PATCH", fmt.Sprintf("/api/v1/drives/%d", f.drive), map[string]any{"status": "in_repair"}, 422, []string{"status"}},

@@ -312,3 +312,13 @@ func assessPosition(out *DriveAssessment, in DriveInput, pos *PositionInput) ([]
 	evaluated = append(evaluated, rulesOf(checkDuty, checkDCBus, checkHeatsink, checkDataQuality)...)
 	return found, evaluated, nil
 }
+
+// Validate reports the first unusable parameter of any model.
+func (p DriveParams) Validate() error {
+	for _, v := range []interface{ Validate() error }{p.Capacitor, p.Fan, p.Storage, p.Duty, p.DCBus, p.DataQuality, p.Heatsink} {
+		if err := v.Validate(); err != nil {
+			return err
+		}
+	}
+	return nil
+}

@@ -190,6 +190,9 @@ type drivePlan struct {
 	capStart  time.Time
 	fanStart  time.Time
 	storageC  float64
+	// params are the models' parameters with the site, area and model
+	// overrides applied.
+	params health.DriveParams
 }
 
 // assessBatch assesses one batch of drives and saves it; it returns the
@@ -275,6 +278,17 @@ func (a *Assessor) plan(c *store.AssessContext, at time.Time, full bool) (*drive
 	if c.Drive.Status == health.StatusRetired {
 		return pl, nil
 	}
+	layers := []store.Parameters{c.Site.Parameters}
+	if pc, ok := c.Current(); ok {
+		layers = []store.Parameters{pc.Site.Parameters, pc.Area.Parameters}
+	} else if c.StoresArea != nil {
+		layers = append(layers, c.StoresArea.Parameters)
+	}
+	params, err := store.ResolveParams(*a.cfg.Params, append(layers, m.Parameters)...)
+	if err != nil {
+		return nil, err
+	}
+	pl.params = params
 	pl.capStart, pl.fanStart = c.Drive.ManufacturedAt, c.Drive.ManufacturedAt
 	var capID, fanID *int64
 	if c.Capacitor != nil {
@@ -294,7 +308,7 @@ func (a *Assessor) plan(c *store.AssessContext, at time.Time, full bool) (*drive
 		ps, ok := pl.positions[in.PositionID]
 		if !ok {
 			var err error
-			if ps, err = setupPosition(c.Positions[in.PositionID], m, pl.ratings, *a.cfg.Params); err != nil {
+			if ps, err = setupPosition(c.Positions[in.PositionID], m, pl.ratings, pl.params); err != nil {
 				return nil, err
 			}
 			pl.positions[in.PositionID] = ps
@@ -305,7 +319,7 @@ func (a *Assessor) plan(c *store.AssessContext, at time.Time, full bool) (*drive
 		}
 		segs = append(segs, seg)
 	}
-	p := a.cfg.Params
+	p := pl.params
 	pl.hash = paramsHash(pl.ratings, pl.capSpec, pl.fanSpec, capID, pl.capStart.Unix(), fanID, pl.fanStart.Unix(),
 		segs, pl.storageC, p.Capacitor, p.Fan, c.Drive.Status)
 
@@ -358,7 +372,7 @@ func (a *Assessor) finish(pl *drivePlan, rs []reading, at time.Time) (store.Asse
 		res.Assessment.At = at.Unix()
 		return res, nil
 	}
-	p := *a.cfg.Params
+	p := pl.params
 	var (
 		capSt health.CapacitorState
 		fanSt health.FanState
@@ -490,7 +504,7 @@ func ledgerFrom(t time.Time) health.LifeLedger {
 // unobserved end of an installation is filled as a gap.
 func (a *Assessor) replay(pl *drivePlan, rs []reading, at time.Time) (health.CapacitorState, health.FanState, error) {
 	c := pl.c
-	p := *a.cfg.Params
+	p := pl.params
 	capSt := health.CapacitorState{LifeLedger: ledgerFrom(pl.capStart)}
 	fanSt := health.FanState{LifeLedger: ledgerFrom(pl.fanStart)}
 	var err error
@@ -598,7 +612,7 @@ func walk(c *store.AssessContext, pl *drivePlan, rs []reading, at time.Time, sta
 // drive) or by the time in stores since the last run.
 func (a *Assessor) advance(pl *drivePlan, rs []reading, at time.Time) (health.CapacitorState, health.FanState, error) {
 	c := pl.c
-	p := *a.cfg.Params
+	p := pl.params
 	capSt, fanSt := c.State.CapacitorState, c.State.FanState
 	pc, installed := c.Current()
 	if !installed {

@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"gorm.io/gorm"
+	"gorm.io/gorm/clause"
 
 	"kelvard/health"
 )
@@ -44,14 +45,31 @@ func queueNotification(tx *gorm.DB, f Finding, at time.Time) error {
 	return nil
 }
 
-// DueNotifications returns undelivered notifications whose next attempt
-// is due, oldest first, that have not used up maxAttempts.
-func (s *Store) DueNotifications(ctx context.Context, now time.Time, maxAttempts, limit int) ([]Notification, error) {
+// ClaimNotifications takes up to limit undelivered notifications that are
+// due and have attempts left, and pushes their next attempt lease ahead, so
+// another replica's sender skips them while this one posts. A sender that
+// dies mid-post leaves them to be retried when the lease ends.
+func (s *Store) ClaimNotifications(ctx context.Context, now time.Time, lease time.Duration, maxAttempts, limit int) ([]Notification, error) {
 	var out []Notification
-	err := s.db.WithContext(ctx).Where("delivered_at IS NULL AND next_attempt_at <= ? AND attempts < ?", now.UTC(), maxAttempts).
-		Order("id").Limit(limit).Find(&out).Error
+	err := s.tx(ctx, func(tx *gorm.DB) error {
+		q := tx.Where("delivered_at IS NULL AND next_attempt_at <= ? AND attempts < ?", now.UTC(), maxAttempts).Order("id").Limit(limit)
+		if s.dialect == Postgres {
+			q = q.Clauses(clause.Locking{Strength: "UPDATE", Options: "SKIP LOCKED"})
+		}
+		if err := q.Find(&out).Error; err != nil {
+			return translate(err)
+		}
+		if len(out) == 0 {
+			return nil
+		}
+		ids := make([]int64, len(out))
+		for i, n := range out {
+			ids[i] = n.ID
+		}
+		return translate(tx.Model(&Notification{}).Where("id IN ?", ids).Update("next_attempt_at", now.Add(lease).UTC()).Error)
+	})
 	if err != nil {
-		return nil, fmt.Errorf("due notifications: %w", translate(err))
+		return nil, fmt.Errorf("claim notifications: %w", err)
 	}
 	return out, nil
 }

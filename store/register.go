@@ -18,15 +18,17 @@ import (
 // Site is a plant or a utility's works: the place that sets elevation and
 // the design climate.
 type Site struct {
-	ID          int64     `json:"id" gorm:"primaryKey"`
-	Name        string    `json:"name"`
-	ElevationM  float64   `json:"elevation_m"`
-	TimeZone    string    `json:"time_zone"`
-	AmbientMinC float64   `json:"ambient_min_c"`
-	AmbientMaxC float64   `json:"ambient_max_c"`
-	Notes       string    `json:"notes"`
-	CreatedAt   time.Time `json:"created_at"`
-	UpdatedAt   time.Time `json:"updated_at"`
+	ID          int64   `json:"id" gorm:"primaryKey"`
+	Name        string  `json:"name"`
+	ElevationM  float64 `json:"elevation_m"`
+	TimeZone    string  `json:"time_zone"`
+	AmbientMinC float64 `json:"ambient_min_c"`
+	AmbientMaxC float64 `json:"ambient_max_c"`
+	// Parameters overrides model parameters for the whole site.
+	Parameters Parameters `json:"parameters" gorm:"serializer:json"`
+	Notes      string     `json:"notes"`
+	CreatedAt  time.Time  `json:"created_at"`
+	UpdatedAt  time.Time  `json:"updated_at"`
 }
 
 // Area is a part of a site with one environment: a pump hall, a dosing
@@ -36,9 +38,11 @@ type Area struct {
 	SiteID      int64       `json:"site_id"`
 	Name        string      `json:"name"`
 	Environment Environment `json:"environment" gorm:"embedded;embeddedPrefix:env_"`
-	Notes       string      `json:"notes"`
-	CreatedAt   time.Time   `json:"created_at"`
-	UpdatedAt   time.Time   `json:"updated_at"`
+	// Parameters overrides model parameters for the area.
+	Parameters Parameters `json:"parameters" gorm:"serializer:json"`
+	Notes      string     `json:"notes"`
+	CreatedAt  time.Time  `json:"created_at"`
+	UpdatedAt  time.Time  `json:"updated_at"`
 }
 
 // Environment is the stored form of health.Environment.
@@ -106,9 +110,11 @@ type DriveModel struct {
 	FanLabourH          float64        `json:"fan_labour_h"`
 	LeadTimeDays        float64        `json:"lead_time_days"`
 	SparesOnHand        int            `json:"spares_on_hand"`
-	Notes               string         `json:"notes"`
-	CreatedAt           time.Time      `json:"created_at"`
-	UpdatedAt           time.Time      `json:"updated_at"`
+	// Parameters overrides model parameters for drives of this model.
+	Parameters Parameters `json:"parameters" gorm:"serializer:json"`
+	Notes      string     `json:"notes"`
+	CreatedAt  time.Time  `json:"created_at"`
+	UpdatedAt  time.Time  `json:"updated_at"`
 }
 
 // CarrierPoint is one point of a carrier-frequency derating table.

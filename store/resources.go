@@ -92,16 +92,16 @@ func enumStrings[T ~string](vs []T) []string {
 var (
 	siteInfo = &ResourceInfo{
 		Name: "sites", Table: "sites",
-		Create:       []string{"name", "elevation_m", "time_zone", "ambient_min_c", "ambient_max_c", "notes"},
-		Patch:        []string{"name", "elevation_m", "time_zone", "ambient_min_c", "ambient_max_c", "notes"},
+		Create:       []string{"name", "elevation_m", "time_zone", "ambient_min_c", "ambient_max_c", "parameters", "notes"},
+		Patch:        []string{"name", "elevation_m", "time_zone", "ambient_min_c", "ambient_max_c", "parameters", "notes"},
 		Filters:      []Filter{{Param: "name", Column: "name", Kind: FilterText}},
 		scope:        "id IN ?",
 		referencedBy: [][2]string{{"areas", "site_id"}, {"positions", "site_id"}, {"drives", "site_id"}},
 	}
 	areaInfo = &ResourceInfo{
 		Name: "areas", Table: "areas",
-		Create: []string{"site_id", "name", "environment", "notes"},
-		Patch:  []string{"name", "environment", "notes"},
+		Create: []string{"site_id", "name", "environment", "parameters", "notes"},
+		Patch:  []string{"name", "environment", "parameters", "notes"},
 		Filters: []Filter{
 			{Param: "site_id", Column: "site_id", Kind: FilterID},
 			{Param: "name", Column: "name", Kind: FilterText},
@@ -116,7 +116,7 @@ var (
 		"rated_ambient_c", "ambient_derate_fraction_per_c", "max_ambient_c", "altitude_rating_m", "altitude_derate_fraction_per_100m",
 		"max_altitude_m", "default_carrier_khz", "carrier_derate", "single_phase_fraction", "losses_fraction", "bus_trip_v",
 		"capacitor", "fan", "enclosure", "conformal_coating", "drive_cost", "capacitor_kit_cost", "fan_kit_cost", "labour_cost_per_h",
-		"drive_labour_h", "capacitor_labour_h", "fan_labour_h", "lead_time_days", "spares_on_hand", "notes"}
+		"drive_labour_h", "capacitor_labour_h", "fan_labour_h", "lead_time_days", "spares_on_hand", "parameters", "notes"}
 	driveModelInfo = &ResourceInfo{
 		Name: "drive-models", Table: "drive_models",
 		Create: driveModelFields,
@@ -227,12 +227,15 @@ func (r *Event) Key() int64 { return r.ID }
 
 // ---- sites
 
-func (r *Site) defaults() { r.TimeZone = "UTC" }
+func (r *Site) defaults() { r.TimeZone, r.Parameters = "UTC", Parameters{} }
 
 func (r *Site) afterCreate(context.Context, *gorm.DB) error { return nil }
 
 func (r *Site) prepare(context.Context, *gorm.DB) error {
 	r.Name = strings.TrimSpace(r.Name)
+	if r.Parameters == nil {
+		r.Parameters = Parameters{}
+	}
 	r.TimeZone = strings.TrimSpace(r.TimeZone)
 	return nil
 }
@@ -249,6 +252,7 @@ func (r *Site) validate(context.Context, *gorm.DB) error {
 	if r.AmbientMaxC < r.AmbientMinC {
 		fe.add("ambient_max_c", "must not be below ambient_min_c")
 	}
+	fe.parameters(r.Parameters)
 	fe.text("notes", r.Notes, false, 4000)
 	return fe.err()
 }
@@ -256,6 +260,7 @@ func (r *Site) validate(context.Context, *gorm.DB) error {
 // ---- areas
 
 func (r *Area) defaults() {
+	r.Parameters = Parameters{}
 	r.Environment = Environment{Location: health.Indoor, Sun: health.SunNone, AmbientMinC: 5, AmbientMaxC: 40,
 		Water: health.WaterNone, Dust: health.DustNone, Oil: health.OilNone, Corrosion: health.CorrosionG1}
 }
@@ -264,6 +269,9 @@ func (r *Area) afterCreate(context.Context, *gorm.DB) error { return nil }
 
 func (r *Area) prepare(context.Context, *gorm.DB) error {
 	r.Name = strings.TrimSpace(r.Name)
+	if r.Parameters == nil {
+		r.Parameters = Parameters{}
+	}
 	return nil
 }
 
@@ -272,6 +280,7 @@ func (r *Area) validate(ctx context.Context, tx *gorm.DB) error {
 	refCheck(ctx, tx, &fe, "site_id", "sites", "id", r.SiteID)
 	fe.text("name", r.Name, true, 100)
 	fe.addMap("environment.", r.Environment.Health().Validate())
+	fe.parameters(r.Parameters)
 	fe.text("notes", r.Notes, false, 4000)
 	return fe.err()
 }
@@ -298,6 +307,7 @@ func (r *DriveModel) defaults() {
 		LossesFraction: d.LossFraction,
 		Capacitor:      CapacitorSpec{RatedLifeH: 5000, RatedTempC: 105, RatingIncludesRipple: true, RippleRiseC: 5},
 		Fan:            FanSpec{L10H: 40000, RefTempC: 60, HalvingInterval: 10, Runs: health.FanAlways},
+		Parameters:     Parameters{},
 	}
 }
 
@@ -308,6 +318,9 @@ func (r *DriveModel) prepare(context.Context, *gorm.DB) error {
 	r.Maker = strings.TrimSpace(r.Maker)
 	if r.CarrierDerate == nil {
 		r.CarrierDerate = []CarrierPoint{}
+	}
+	if r.Parameters == nil {
+		r.Parameters = Parameters{}
 	}
 	if r.BusTripV == 0 && r.VoltageClassV > 0 {
 		r.BusTripV = health.DefaultBusTripV(r.VoltageClassV)
@@ -379,6 +392,7 @@ func (r *DriveModel) validate(context.Context, *gorm.DB) error {
 	if r.SparesOnHand < 0 || r.SparesOnHand > 100000 {
 		fe.add("spares_on_hand", "must lie between 0 and 100000")
 	}
+	fe.parameters(r.Parameters)
 	fe.text("notes", r.Notes, false, 4000)
 	return fe.err()
 }

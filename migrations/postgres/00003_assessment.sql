@@ -95,7 +95,15 @@ CREATE TABLE notifications (
 );
 CREATE INDEX notifications_due ON notifications (next_attempt_at) WHERE delivered_at IS NULL;
 
+-- Parameter overrides, layered defaults < site < area < drive model.
+ALTER TABLE sites ADD COLUMN parameters jsonb NOT NULL DEFAULT '{}';
+ALTER TABLE areas ADD COLUMN parameters jsonb NOT NULL DEFAULT '{}';
+ALTER TABLE drive_models ADD COLUMN parameters jsonb NOT NULL DEFAULT '{}';
+
 -- +goose Down
+ALTER TABLE drive_models DROP COLUMN parameters;
+ALTER TABLE areas DROP COLUMN parameters;
+ALTER TABLE sites DROP COLUMN parameters;
 DROP TABLE notifications;
 DROP TABLE findings;
 DROP TABLE assessment_days;
