@@ -1,6 +1,7 @@
 package csvio
 
 import (
+	"bufio"
 	"encoding/csv"
 	"errors"
 	"fmt"
@@ -57,7 +58,11 @@ const utf8BOM = "\uFEFF"
 // *store.ValidationError: nothing of the file can be trusted then. Problems
 // with single cells stay with their rows. Reader errors are wrapped.
 func parse(sp *spec, r io.Reader) (*table, error) {
-	cr := csv.NewReader(r)
+	br := bufio.NewReader(r)
+	if b, err := br.Peek(len(utf8BOM)); err == nil && string(b) == utf8BOM {
+		br.Discard(len(utf8BOM))
+	}
+	cr := csv.NewReader(br)
 	cr.FieldsPerRecord = -1
 	header, err := cr.Read()
 	if errors.Is(err, io.EOF) {
@@ -108,9 +113,6 @@ func (t *table) readHeader(rec []string, line int) error {
 	var fe []store.FieldError
 	bad := func(field, format string, args ...any) {
 		fe = append(fe, store.FieldError{Field: field, Line: line, Reason: fmt.Sprintf(format, args...)})
-	}
-	if len(rec) > 0 {
-		rec[0] = strings.TrimPrefix(rec[0], utf8BOM)
 	}
 	var unknown []string
 	for i, name := range rec {
