@@ -43,6 +43,7 @@ Usage: kelvard <command> [flags]
 Commands:
   serve     run the HTTP server (API, pages, metrics, scheduled jobs)
   migrate   apply database migrations and exit
+  import    import a register CSV file: import KIND FILE [--partial]
   token     make, list and revoke API tokens
   version   print the version
 
@@ -66,6 +67,8 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 		err = cmdMigrate(ctx, rest, getenv, stdout, stderr)
 	case "token":
 		err = cmdToken(ctx, rest, getenv, stdout, stderr)
+	case "import":
+		err = cmdImport(ctx, rest, getenv, os.Stdin, stdout, stderr)
 	case "version":
 		fmt.Fprintln(stdout, "kelvard", buildVersion())
 	case "help", "-h", "--help":
@@ -177,8 +180,13 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	listen := fs.String("listen", envOr(getenv, "KELVARD_LISTEN", ":8080"), "address to listen on (KELVARD_LISTEN)")
 	bootstrap := fs.String("bootstrap-token", getenv("KELVARD_BOOTSTRAP_TOKEN"),
 		"becomes an admin token when the store holds none (KELVARD_BOOTSTRAP_TOKEN); make one with `kelvard token new-secret`")
+	maxImport := fs.String("max-import-bytes", getenv("KELVARD_MAX_IMPORT_BYTES"), "largest CSV import body the API takes, in bytes (default 32 MiB) (KELVARD_MAX_IMPORT_BYTES)")
 	proxies := fs.String("trusted-proxies", getenv("KELVARD_TRUSTED_PROXIES"), "comma-separated proxy addresses or CIDRs whose X-Forwarded-For is trusted (KELVARD_TRUSTED_PROXIES)")
 	if err := parse(fs, args); err != nil {
+		return err
+	}
+	importLimit, err := byteLimit("--max-import-bytes", *maxImport)
+	if err != nil {
 		return err
 	}
 	log, err := c.logger(stderr)
@@ -199,7 +207,7 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 			log.Info("bootstrap admin token registered")
 		}
 	}
-	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies)}, st, log)
+	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies), MaxImportBytes: importLimit}, st, log)
 	if err != nil {
 		return err
 	}
