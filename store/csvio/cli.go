@@ -110,9 +110,12 @@ func WriteSummary(w io.Writer, res Result, err error) {
 	var ve *store.ValidationError
 	fields := res.Errors
 	switch {
+	case errors.As(err, &ve) && res.Rejected > 0:
+		fields = ve.Fields
+		fmt.Fprintf(w, "%s: nothing written: %d of %d rows rejected\n", res.Kind, res.Rejected, res.Rows)
 	case errors.As(err, &ve):
 		fields = ve.Fields
-		fmt.Fprintf(w, "%s: nothing written: %d of %d rows rejected\n", res.Kind, max(res.Rejected, 1), res.Rows)
+		fmt.Fprintf(w, "%s: nothing written: the file cannot be read\n", res.Kind)
 	case err != nil:
 		return
 	default:

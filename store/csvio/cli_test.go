@@ -66,6 +66,12 @@ func TestWriteSummary(t *testing.T) {
 	if b.String() != want {
 		t.Errorf("summary of a partial import:\n%s\nwant:\n%s", b.String(), want)
 	}
+	res, err = Import(context.Background(), s, KindSites, strings.NewReader("name,colour\n"), Options{Partial: true})
+	b.Reset()
+	WriteSummary(&b, res, err)
+	if !strings.HasPrefix(b.String(), "sites: nothing written: the file cannot be read\n  line 1: colour: is not a column of sites\n") {
+		t.Errorf("summary of an unreadable file:\n%s", b.String())
+	}
 	b.Reset()
 	WriteSummary(&b, Result{Kind: KindSites}, errors.New("database gone"))
 	if b.Len() != 0 {

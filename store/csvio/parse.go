@@ -77,15 +77,16 @@ func parse(sp *spec, r io.Reader) (*table, error) {
 	if err := t.readHeader(header, headerLine); err != nil {
 		return nil, err
 	}
+	line := headerLine
 	for n := 1; ; n++ {
 		rec, err := cr.Read()
 		if errors.Is(err, io.EOF) {
 			break
 		}
 		if err != nil {
-			return nil, readError(err, headerLine)
+			return nil, readError(err, line)
 		}
-		line, _ := cr.FieldPos(0)
+		line, _ = cr.FieldPos(0)
 		if blank(rec) {
 			n--
 			continue
