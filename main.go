@@ -14,6 +14,7 @@ import (
 	"os"
 	"os/signal"
 	"runtime/debug"
+	"strconv"
 	"strings"
 	"syscall"
 	"text/tabwriter"
@@ -24,6 +25,7 @@ import (
 
 	"kelvard/api"
 	"kelvard/store"
+	"kelvard/store/csvio"
 )
 
 // version is set at build time with -ldflags "-X main.version=…".
@@ -43,6 +45,7 @@ Usage: kelvard <command> [flags]
 Commands:
   serve     run the HTTP server (API, pages, metrics, scheduled jobs)
   migrate   apply database migrations and exit
+  import    import a register CSV file: import KIND FILE [--partial]
   token     make, list and revoke API tokens
   version   print the version
 
@@ -66,6 +69,8 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 		err = cmdMigrate(ctx, rest, getenv, stdout, stderr)
 	case "token":
 		err = cmdToken(ctx, rest, getenv, stdout, stderr)
+	case "import":
+		err = cmdImport(ctx, rest, getenv, os.Stdin, stdout, stderr)
 	case "version":
 		fmt.Fprintln(stdout, "kelvard", buildVersion())
 	case "help", "-h", "--help":
@@ -177,8 +182,13 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	listen := fs.String("listen", envOr(getenv, "KELVARD_LISTEN", ":8080"), "address to listen on (KELVARD_LISTEN)")
 	bootstrap := fs.String("bootstrap-token", getenv("KELVARD_BOOTSTRAP_TOKEN"),
 		"becomes an admin token when the store holds none (KELVARD_BOOTSTRAP_TOKEN); make one with `kelvard token new-secret`")
+	maxImport := fs.String("max-import-bytes", getenv("KELVARD_MAX_IMPORT_BYTES"), "largest CSV import body the API takes, in bytes (default 32 MiB) (KELVARD_MAX_IMPORT_BYTES)")
 	proxies := fs.String("trusted-proxies", getenv("KELVARD_TRUSTED_PROXIES"), "comma-separated proxy addresses or CIDRs whose X-Forwarded-For is trusted (KELVARD_TRUSTED_PROXIES)")
 	if err := parse(fs, args); err != nil {
+		return err
+	}
+	importLimit, err := byteLimit("--max-import-bytes", *maxImport)
+	if err != nil {
 		return err
 	}
 	log, err := c.logger(stderr)
@@ -199,7 +209,7 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 			log.Info("bootstrap admin token registered")
 		}
 	}
-	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies)}, st, log)
+	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies), MaxImportBytes: importLimit}, st, log)
 	if err != nil {
 		return err
 	}
@@ -397,4 +407,80 @@ func buildVersion() string {
 		}
 	}
 	return "dev"
+}
+
+const importUsage = "usage: kelvard import KIND FILE [--partial]   (FILE - reads standard input; KIND is one of sites, areas, models, positions, drives, installations, components, events, readings)"
+
+// cmdImport imports a register CSV file: kelvard import KIND FILE
+// [--partial]. Flags may come before or after the two arguments.
+func cmdImport(ctx context.Context, args []string, getenv func(string) string, stdin io.Reader, stdout, stderr io.Writer) error {
+	fs, c := newFlags("import", getenv, stderr)
+	partial := fs.Bool("partial", false, "write the good rows and list the bad ones (default: one bad row writes nothing)")
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, importUsage)
+		fs.PrintDefaults()
+	}
+	var pos []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			if errors.Is(err, flag.ErrHelp) {
+				return err
+			}
+			return usageError{err}
+		}
+		if fs.NArg() == 0 {
+			break
+		}
+		pos, args = append(pos, fs.Arg(0)), fs.Args()[1:]
+	}
+	if len(pos) != 2 {
+		return usageError{errors.New(importUsage)}
+	}
+	kind, err := csvio.ParseKind(pos[0])
+	if err != nil {
+		return usageError{err}
+	}
+	in, size := stdin, int64(0)
+	if pos[1] != "-" {
+		f, err := os.Open(pos[1])
+		if err != nil {
+			return err
+		}
+		defer f.Close()
+		if fi, err := f.Stat(); err == nil {
+			size = fi.Size()
+		}
+		in = f
+	}
+	log, err := c.logger(stderr)
+	if err != nil {
+		return err
+	}
+	st, err := c.open(ctx, log)
+	if err != nil {
+		return err
+	}
+	defer st.Close()
+	progress := csvio.NewProgressPrinter(stderr, "import "+string(kind))
+	res, err := csvio.Import(ctx, st, kind, in, csvio.Options{Partial: *partial, Size: size, Progress: progress.Report})
+	progress.Finish()
+	csvio.WriteSummary(stdout, res, err)
+	var ve *store.ValidationError
+	if errors.As(err, &ve) {
+		return fmt.Errorf("import %s: nothing was written; fix the rows above or use --partial", kind)
+	}
+	return err
+}
+
+// byteLimit reads a size in bytes given by a flag or its environment
+// variable; empty means the default (0).
+func byteLimit(name, s string) (int64, error) {
+	if s == "" {
+		return 0, nil
+	}
+	n, err := strconv.ParseInt(s, 10, 64)
+	if err != nil || n <= 0 {
+		return 0, usageError{fmt.Errorf("%s %q: want a positive number of bytes", name, s)}
+	}
+	return n, nil
 }

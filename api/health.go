@@ -56,11 +56,11 @@ type CurrentHealth struct {
 
 func (s *Server) healthRoutes(v1 string) {
 	s.route(operation{Method: http.MethodGet, Path: v1 + "/drives/:id/health", Tag: "health", Role: store.RoleViewer,
-		Summary: "The drive's latest assessment: capacitor and fan life, allowed current and utilisation, health band, risk and findings",
+		Summary:  "The drive's latest assessment: capacitor and fan life, allowed current and utilisation, health band, risk and findings",
 		Response: DriveHealth{}}, s.driveHealth)
 	s.route(operation{Method: http.MethodGet, Path: v1 + "/drives/:id/health/history", Tag: "health", Role: store.RoleViewer,
-		Summary: "The drive's daily assessments between from and to (default the last 365 days)",
-		Query:   []param{{Name: "from", Doc: "RFC 3339"}, {Name: "to", Doc: "RFC 3339"}},
+		Summary:  "The drive's daily assessments between from and to (default the last 365 days)",
+		Query:    []param{{Name: "from", Doc: "RFC 3339"}, {Name: "to", Doc: "RFC 3339"}},
 		Response: []store.AssessmentDay{}}, s.driveHealthHistory)
 
 	s.route(operation{Method: http.MethodGet, Path: v1 + "/findings", Tag: "health", Role: store.RoleViewer,

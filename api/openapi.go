@@ -71,13 +71,23 @@ func (s *Server) OpenAPI() (*openapi3.T, error) {
 			o.Description = "Needs the " + string(op.Role) + " role or higher."
 		}
 		for _, p := range pathParams {
-			o.Parameters = append(o.Parameters, &openapi3.ParameterRef{Value: openapi3.NewPathParameter(p).
-				WithSchema(openapi3.NewInt64Schema())})
+			pp := openapi3.NewPathParameter(p).WithSchema(openapi3.NewInt64Schema())
+			if i := slices.IndexFunc(op.PathParams, func(q param) bool { return q.Name == p }); i >= 0 {
+				sch := openapi3.NewStringSchema()
+				for _, e := range op.PathParams[i].Enum {
+					sch.Enum = append(sch.Enum, e)
+				}
+				pp = pp.WithSchema(sch).WithDescription(op.PathParams[i].Doc)
+			}
+			o.Parameters = append(o.Parameters, &openapi3.ParameterRef{Value: pp})
 		}
 		for _, q := range op.Query {
 			sch := openapi3.NewStringSchema()
-			if q.Kind == "integer" {
+			switch q.Kind {
+			case "integer":
 				sch = openapi3.NewInt64Schema()
+			case "boolean":
+				sch = openapi3.NewBoolSchema()
 			}
 			for _, e := range q.Enum {
 				sch.Enum = append(sch.Enum, e)
@@ -99,6 +109,8 @@ func (s *Server) OpenAPI() (*openapi3.T, error) {
 				content[m] = openapi3.NewMediaType().WithSchema(openapi3.NewStringSchema())
 			}
 			o.RequestBody = &openapi3.RequestBodyRef{Value: openapi3.NewRequestBody().WithRequired(true).WithContent(content)}
+		} else if len(op.RequestMedia) > 0 {
+			o.RequestBody = &openapi3.RequestBodyRef{Value: openapi3.NewRequestBody().WithRequired(true).WithContent(textContent(op.RequestMedia))}
 		}
 		ok := openapi3.NewResponse().WithDescription(http.StatusText(op.Status))
 		if op.Response != nil && op.Status != http.StatusNoContent {
@@ -111,6 +123,8 @@ func (s *Server) OpenAPI() (*openapi3.T, error) {
 				content[m] = openapi3.NewMediaType().WithSchema(openapi3.NewStringSchema())
 			}
 			ok.Content = content
+		} else if len(op.ResponseMedia) > 0 {
+			ok.Content = textContent(op.ResponseMedia)
 		}
 		o.Responses.Set(strconv.Itoa(op.Status), &openapi3.ResponseRef{Value: ok})
 		o.Responses.Set("default", &openapi3.ResponseRef{Value: openapi3.NewResponse().
@@ -119,6 +133,15 @@ func (s *Server) OpenAPI() (*openapi3.T, error) {
 		doc.AddOperation(path, op.Method, o)
 	}
 	return doc, nil
+}
+
+// textContent documents a body that is text in each of the media types.
+func textContent(media []string) openapi3.Content {
+	content := openapi3.Content{}
+	for _, m := range media {
+		content[m] = openapi3.NewMediaType().WithSchema(openapi3.NewStringSchema())
+	}
+	return content
 }
 
 // openAPIPath turns a gin path ("/drives/:id") into an OpenAPI path

@@ -17,6 +17,8 @@ type operation struct {
 	Role store.Role
 	// Query lists the query parameters.
 	Query []param
+	// PathParams documents path parameters that are not integer ids.
+	PathParams []param
 	// Request is a value of the JSON body type (nil: no body);
 	// RequestFields limits the documented properties to those accepted.
 	Request       any
@@ -87,6 +89,7 @@ func (s *Server) routes() {
 		Request: store.Move{}, Response: store.MoveResult{}, Status: http.StatusCreated}, s.moveDrive)
 	registerCRUD[store.Event](s, crudSpec{path: v1 + "/events", itemParam: "id", tag: "register"})
 	s.healthRoutes(v1)
+	s.registerCSV(v1)
 
 	s.route(operation{Method: http.MethodGet, Path: v1 + "/tokens", Summary: "List tokens (never their secrets)", Tag: "admin",
 		Role: store.RoleAdmin, Response: []store.Token{}}, s.listTokens)

@@ -25,6 +25,8 @@ type Config struct {
 	Version string
 	// MaxBodyBytes caps register request bodies (default 1 MiB).
 	MaxBodyBytes int64
+	// MaxImportBytes caps a CSV import body (default 32 MiB).
+	MaxImportBytes int64
 	// TrustedProxies lists the proxies whose X-Forwarded-For is believed;
 	// empty trusts none.
 	TrustedProxies []string
@@ -68,6 +70,9 @@ type Server struct {
 func New(cfg Config, st *store.Store, log *slog.Logger) (*Server, error) {
 	if cfg.MaxBodyBytes <= 0 {
 		cfg.MaxBodyBytes = 1 << 20
+	}
+	if cfg.MaxImportBytes <= 0 {
+		cfg.MaxImportBytes = DefaultMaxImportBytes
 	}
 	if log == nil {
 		log = slog.New(slog.DiscardHandler)

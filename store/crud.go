@@ -1,6 +1,7 @@
 package store
 
 import (
+	"bytes"
 	"context"
 	"encoding/base64"
 	"encoding/json"
@@ -134,6 +135,10 @@ func applyFilters(q *gorm.DB, info *ResourceInfo, values map[string]string) (*go
 // List returns one page of collection T, ordered by id, honouring the
 // principal's site limit.
 func List[T any, P Record[T]](ctx context.Context, s *Store, lq ListQuery) (Page[T], error) {
+	return list[T, P](ctx, s.db.WithContext(ctx), lq)
+}
+
+func list[T any, P Record[T]](ctx context.Context, db *gorm.DB, lq ListQuery) (Page[T], error) {
 	info := Info[T, P]()
 	after, err := DecodeCursor(lq.Cursor)
 	if err != nil {
@@ -146,7 +151,7 @@ func List[T any, P Record[T]](ctx context.Context, s *Store, lq ListQuery) (Page
 	if limit > MaxLimit {
 		return Page[T]{}, Invalid("limit", "must be at most %d", MaxLimit)
 	}
-	q := scoped(ctx, s.db.WithContext(ctx).Model(new(T)), info)
+	q := scoped(ctx, db.Model(new(T)), info)
 	if q, err = applyFilters(q, info, lq.Filters); err != nil {
 		return Page[T]{}, err
 	}
@@ -186,36 +191,47 @@ func get[T any, P Record[T]](ctx context.Context, tx *gorm.DB, id int64) (T, err
 // object is validated, inserted and audited in one transaction.
 func Create[T any, P Record[T]](ctx context.Context, s *Store, apply func(*T) error) (T, error) {
 	info := Info[T, P]()
+	v, err := newRecord[T, P](apply)
+	if err != nil {
+		return v, err
+	}
+	err = s.tx(ctx, func(tx *gorm.DB) error { return insert[T, P](ctx, tx, &v) })
+	if err != nil {
+		return v, fmt.Errorf("create %s: %w", info.Name, err)
+	}
+	return v, nil
+}
+
+// newRecord makes a new object of collection T: its defaults, then apply.
+func newRecord[T any, P Record[T]](apply func(*T) error) (T, error) {
 	var v T
-	p := P(&v)
-	c, isCreator := any(p).(creator)
-	if isCreator {
+	if c, ok := any(P(&v)).(creator); ok {
 		c.defaults()
 	}
 	if err := apply(&v); err != nil {
 		return v, err
 	}
-	err := s.tx(ctx, func(tx *gorm.DB) error {
-		if err := p.prepare(ctx, tx); err != nil {
-			return err
-		}
-		if err := p.validate(ctx, tx); err != nil {
-			return err
-		}
-		if err := tx.Create(p).Error; err != nil {
-			return translate(err)
-		}
-		if isCreator {
-			if err := c.afterCreate(ctx, tx); err != nil {
-				return err
-			}
-		}
-		return writeAudit(ctx, tx, "create", info.Name, p.Key(), nil, p)
-	})
-	if err != nil {
-		return v, fmt.Errorf("create %s: %w", info.Name, err)
-	}
 	return v, nil
+}
+
+// insert prepares, validates, inserts and audits v inside tx.
+func insert[T any, P Record[T]](ctx context.Context, tx *gorm.DB, v *T) error {
+	p := P(v)
+	if err := p.prepare(ctx, tx); err != nil {
+		return err
+	}
+	if err := p.validate(ctx, tx); err != nil {
+		return err
+	}
+	if err := tx.Create(p).Error; err != nil {
+		return translate(err)
+	}
+	if c, ok := any(p).(creator); ok {
+		if err := c.afterCreate(ctx, tx); err != nil {
+			return err
+		}
+	}
+	return writeAudit(ctx, tx, "create", p.info().Name, p.Key(), nil, p)
 }
 
 // Update loads object id of collection T, lets apply change it (the api
@@ -225,34 +241,66 @@ func Update[T any, P Record[T]](ctx context.Context, s *Store, id int64, apply f
 	info := Info[T, P]()
 	var out T
 	err := s.tx(ctx, func(tx *gorm.DB) error {
-		v, err := get[T, P](ctx, lockRow(tx, s.dialect), id)
-		if err != nil {
-			return err
-		}
-		before := v
-		if err := apply(&v); err != nil {
-			return err
-		}
-		p := P(&v)
-		if p.Key() != id {
-			return Invalid("id", "cannot change")
-		}
-		if err := p.prepare(ctx, tx); err != nil {
-			return err
-		}
-		if err := p.validate(ctx, tx); err != nil {
-			return err
-		}
-		if err := tx.Save(p).Error; err != nil {
-			return translate(err)
-		}
-		out = v
-		return writeAudit(ctx, tx, "update", info.Name, id, &before, p)
+		var err error
+		out, _, err = update[T, P](ctx, tx, s.dialect, id, apply, false)
+		return err
 	})
 	if err != nil {
 		return out, fmt.Errorf("update %s %d: %w", info.Name, id, err)
 	}
 	return out, nil
+}
+
+// update is Update inside tx. With skipUnchanged, an object that apply and
+// prepare leave as it was is neither saved nor audited, and changed is
+// false.
+func update[T any, P Record[T]](ctx context.Context, tx *gorm.DB, d Dialect, id int64, apply func(*T) error, skipUnchanged bool) (out T, changed bool, err error) {
+	info := Info[T, P]()
+	v, err := get[T, P](ctx, lockRow(tx, d), id)
+	if err != nil {
+		return out, false, err
+	}
+	before := v
+	if err := apply(&v); err != nil {
+		return out, false, err
+	}
+	p := P(&v)
+	if p.Key() != id {
+		return out, false, Invalid("id", "cannot change")
+	}
+	if err := p.prepare(ctx, tx); err != nil {
+		return out, false, err
+	}
+	if err := p.validate(ctx, tx); err != nil {
+		return out, false, err
+	}
+	if skipUnchanged {
+		same, err := sameJSON(&before, p)
+		if err != nil {
+			return out, false, fmt.Errorf("compare %s %d: %w", info.Name, id, err)
+		}
+		if same {
+			return before, false, nil
+		}
+	}
+	if err := tx.Save(p).Error; err != nil {
+		return out, false, translate(err)
+	}
+	return v, true, writeAudit(ctx, tx, "update", info.Name, id, &before, p)
+}
+
+// sameJSON reports whether a and b encode to the same JSON: the audit log's
+// view of whether an object changed.
+func sameJSON(a, b any) (bool, error) {
+	ja, err := json.Marshal(a)
+	if err != nil {
+		return false, err
+	}
+	jb, err := json.Marshal(b)
+	if err != nil {
+		return false, err
+	}
+	return bytes.Equal(ja, jb), nil
 }
 
 // Delete removes object id of collection T. It answers ErrReferenced while

@@ -43,7 +43,21 @@ type MoveResult struct {
 func (s *Store) MoveDrive(ctx context.Context, driveID int64, m Move) (MoveResult, error) {
 	var res MoveResult
 	err := s.tx(ctx, func(tx *gorm.DB) error {
-		d, err := get[Drive](ctx, lockRow(tx, s.dialect), driveID)
+		var err error
+		res, err = moveDrive(ctx, tx, s.dialect, driveID, m)
+		return err
+	})
+	if err != nil {
+		return MoveResult{}, fmt.Errorf("move drive %d: %w", driveID, err)
+	}
+	return res, nil
+}
+
+// moveDrive is MoveDrive inside tx.
+func moveDrive(ctx context.Context, tx *gorm.DB, dialect Dialect, driveID int64, m Move) (MoveResult, error) {
+	var res MoveResult
+	err := func() error {
+		d, err := get[Drive](ctx, lockRow(tx, dialect), driveID)
 		if err != nil {
 			return err
 		}
@@ -152,9 +166,9 @@ func (s *Store) MoveDrive(ctx context.Context, driveID int64, m Move) (MoveResul
 			return err
 		}
 		return writeAudit(ctx, tx, "install", "drives", d.ID, &before, &d)
-	})
+	}()
 	if err != nil {
-		return MoveResult{}, fmt.Errorf("move drive %d: %w", driveID, err)
+		return MoveResult{}, err
 	}
 	return res, nil
 }
