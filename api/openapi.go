@@ -71,8 +71,11 @@ func (s *Server) OpenAPI() (*openapi3.T, error) {
 			o.Description = "Needs the " + string(op.Role) + " role or higher."
 		}
 		for _, p := range pathParams {
-			o.Parameters = append(o.Parameters, &openapi3.ParameterRef{Value: openapi3.NewPathParameter(p).
-				WithSchema(openapi3.NewInt64Schema())})
+			sch := openapi3.NewInt64Schema()
+			if slices.Contains(op.PathStrings, p) {
+				sch = openapi3.NewStringSchema()
+			}
+			o.Parameters = append(o.Parameters, &openapi3.ParameterRef{Value: openapi3.NewPathParameter(p).WithSchema(sch)})
 		}
 		for _, q := range op.Query {
 			sch := openapi3.NewStringSchema()

@@ -27,6 +27,9 @@ type operation struct {
 	Response any
 	// ResponseMedia lists extra answer media types.
 	ResponseMedia []string
+	// PathStrings names the path parameters that are strings (the others
+	// are integer ids).
+	PathStrings []string
 	// Status is the success status (default 200).
 	Status int
 }
@@ -80,6 +83,7 @@ func (s *Server) routes() {
 		Summary: "Move the drive into a position (position_id) or out of its position (position_id null), in one transaction",
 		Request: store.Move{}, Response: store.MoveResult{}, Status: http.StatusCreated}, s.moveDrive)
 	registerCRUD[store.Event](s, crudSpec{path: v1 + "/events", itemParam: "id", tag: "register"})
+	s.jobRoutes(v1)
 
 	s.route(operation{Method: http.MethodGet, Path: v1 + "/tokens", Summary: "List tokens (never their secrets)", Tag: "admin",
 		Role: store.RoleAdmin, Response: []store.Token{}}, s.listTokens)

@@ -30,6 +30,9 @@ type Config struct {
 	// Ready, when set, is asked by /readyz besides the database checks (the
 	// demo loader, say, holds readiness until its first assessment).
 	Ready func(ctx context.Context) error
+	// Jobs lists job runs and starts manual ones (*jobs.Scheduler); nil
+	// answers the job endpoints with 503.
+	Jobs JobRunner
 }
 
 // Server is kelvard's HTTP handler.
