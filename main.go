@@ -61,7 +61,7 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 	var err error
 	switch cmd {
 	case "serve":
-		err = cmdServe(ctx, rest, getenv, stdout, stderr)
+		err = cmdServe(ctx, rest, getenv, stdout, stderr, builtinJobs)
 	case "migrate":
 		err = cmdMigrate(ctx, rest, getenv, stdout, stderr)
 	case "token":
@@ -172,8 +172,9 @@ func (c *common) open(ctx context.Context, log *slog.Logger) (*store.Store, erro
 	return st, nil
 }
 
-func cmdServe(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+func cmdServe(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer, jobsFor jobSource) error {
 	fs, c := newFlags("serve", getenv, stderr)
+	jf := addJobFlags(fs, getenv)
 	listen := fs.String("listen", envOr(getenv, "KELVARD_LISTEN", ":8080"), "address to listen on (KELVARD_LISTEN)")
 	bootstrap := fs.String("bootstrap-token", getenv("KELVARD_BOOTSTRAP_TOKEN"),
 		"becomes an admin token when the store holds none (KELVARD_BOOTSTRAP_TOKEN); make one with `kelvard token new-secret`")
@@ -199,8 +200,16 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 			log.Info("bootstrap admin token registered")
 		}
 	}
-	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies)}, st, log)
+	sched, err := jf.build(st, log, jobsFor(st, log))
 	if err != nil {
+		return err
+	}
+	defer jf.stop(sched, log) // before the store closes: waits for a running job
+	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies), Jobs: sched}, st, log)
+	if err != nil {
+		return err
+	}
+	if err := jf.start(sched, log); err != nil {
 		return err
 	}
 	ln, err := net.Listen("tcp", *listen)
