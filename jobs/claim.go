@@ -114,7 +114,8 @@ func (s *Scheduler) reserve(name string, manual bool) (*active, string, error) {
 	return a, "", nil
 }
 
-// release ends a reservation made by reserve.
+// release ends a reservation made by reserve (execute may already have
+// taken it out of running, as it records the end).
 func (s *Scheduler) release(name string, a *active) {
 	s.mu.Lock()
 	if s.running[name] == a {
