@@ -24,6 +24,8 @@ import (
 	"github.com/mattn/go-isatty"
 
 	"kelvard/api"
+	"kelvard/jobs"
+	"kelvard/jobs/progress"
 	"kelvard/store"
 	"kelvard/store/csvio"
 )
@@ -47,6 +49,7 @@ Commands:
   migrate   apply database migrations and exit
   import    import a register CSV file: import KIND FILE [--partial]
   token     make, list and revoke API tokens
+  assess    run one assessment now (--full recomputes every drive)
   version   print the version
 
 Every flag can also be set by an environment variable named in its help,
@@ -64,11 +67,13 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 	var err error
 	switch cmd {
 	case "serve":
-		err = cmdServe(ctx, rest, getenv, stdout, stderr)
+		err = cmdServe(ctx, rest, getenv, stdout, stderr, builtinJobs)
 	case "migrate":
 		err = cmdMigrate(ctx, rest, getenv, stdout, stderr)
 	case "token":
 		err = cmdToken(ctx, rest, getenv, stdout, stderr)
+	case "assess":
+		err = cmdAssess(ctx, rest, getenv, stdout, stderr)
 	case "import":
 		err = cmdImport(ctx, rest, getenv, os.Stdin, stdout, stderr)
 	case "version":
@@ -177,15 +182,22 @@ func (c *common) open(ctx context.Context, log *slog.Logger) (*store.Store, erro
 	return st, nil
 }
 
-func cmdServe(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+func cmdServe(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer, jobsFor jobSource) error {
 	fs, c := newFlags("serve", getenv, stderr)
+	jf := addJobFlags(fs, getenv)
 	listen := fs.String("listen", envOr(getenv, "KELVARD_LISTEN", ":8080"), "address to listen on (KELVARD_LISTEN)")
 	bootstrap := fs.String("bootstrap-token", getenv("KELVARD_BOOTSTRAP_TOKEN"),
 		"becomes an admin token when the store holds none (KELVARD_BOOTSTRAP_TOKEN); make one with `kelvard token new-secret`")
 	maxImport := fs.String("max-import-bytes", getenv("KELVARD_MAX_IMPORT_BYTES"), "largest CSV import body the API takes, in bytes (default 32 MiB) (KELVARD_MAX_IMPORT_BYTES)")
 	proxies := fs.String("trusted-proxies", getenv("KELVARD_TRUSTED_PROXIES"), "comma-separated proxy addresses or CIDRs whose X-Forwarded-For is trusted (KELVARD_TRUSTED_PROXIES)")
+	webhook := fs.String("webhook-url", getenv("KELVARD_WEBHOOK_URL"), "URL that new critical findings are posted to (KELVARD_WEBHOOK_URL)")
+	webhookSecret := fs.String("webhook-secret", getenv("KELVARD_WEBHOOK_SECRET"), "key of the HMAC-SHA256 signature on webhook posts (KELVARD_WEBHOOK_SECRET)")
+	metricsToken := fs.Bool("metrics-token", envOr(getenv, "KELVARD_METRICS_TOKEN", "false") == "true", "require a bearer token on /metrics (KELVARD_METRICS_TOKEN=true)")
 	if err := parse(fs, args); err != nil {
 		return err
+	}
+	if *webhook != "" && *webhookSecret == "" {
+		return usageError{errors.New("--webhook-url needs --webhook-secret (KELVARD_WEBHOOK_SECRET) so receivers can check posts")}
 	}
 	importLimit, err := byteLimit("--max-import-bytes", *maxImport)
 	if err != nil {
@@ -209,9 +221,24 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 			log.Info("bootstrap admin token registered")
 		}
 	}
-	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies), MaxImportBytes: importLimit}, st, log)
+	notifier := jobs.NewNotifier(st, *webhook, *webhookSecret, log)
+	sched, err := jf.build(st, log, jobsFor(st, log, notifier))
 	if err != nil {
 		return err
+	}
+	defer jf.stop(sched, log) // before the store closes: waits for a running job
+	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies), MaxImportBytes: importLimit, Jobs: sched,
+		MetricsToken: *metricsToken, JobStats: jobStats(st)}, st, log)
+	if err != nil {
+		return err
+	}
+	if err := jf.start(sched, log); err != nil {
+		return err
+	}
+	if notifier != nil {
+		// Retries of failed webhook posts; new findings are posted right
+		// after each assessment.
+		go notifier.Run(ctx, 30*time.Second)
 	}
 	ln, err := net.Listen("tcp", *listen)
 	if err != nil {
@@ -258,6 +285,39 @@ func splitList(s string) []string {
 		}
 	}
 	return out
+}
+
+func cmdAssess(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+	fs, c := newFlags("assess", getenv, stderr)
+	full := fs.Bool("full", false, "recompute every drive from its components' start instead of taking in only new readings")
+	if err := parse(fs, args); err != nil {
+		return err
+	}
+	log, err := c.logger(stderr)
+	if err != nil {
+		return err
+	}
+	st, err := c.open(ctx, log)
+	if err != nil {
+		return err
+	}
+	defer st.Close()
+	a := jobs.NewAssessor(st, jobs.AssessConfig{Log: log})
+	sched, err := jobs.New(jobs.Config{Store: st, Jobs: []jobs.Job{jobs.AssessJob{Assessor: a, Full: *full}}, Logger: log})
+	if err != nil {
+		return err
+	}
+	bar := progress.New(stderr, "assess", progress.Auto)
+	run, err := sched.Run(ctx, jobs.Assess, bar.Update)
+	bar.Finish()
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(stdout, "assessment %s: %s\n", run.Status, run.Note)
+	if run.Status != store.JobSucceeded {
+		return fmt.Errorf("assessment failed: %s", run.Error)
+	}
+	return nil
 }
 
 func cmdMigrate(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
@@ -483,4 +543,118 @@ func byteLimit(name, s string) (int64, error) {
 		return 0, usageError{fmt.Errorf("%s %q: want a positive number of bytes", name, s)}
 	}
 	return n, nil
+}
+
+// jobSource builds the jobs `serve` runs, over the opened store; n posts
+// new critical findings to the webhook (nil when none is configured).
+type jobSource func(st *store.Store, log *slog.Logger, n *jobs.Notifier) []jobs.Job
+
+// builtinJobs lists kelvard's jobs over the opened store. A job named in
+// jobs.DefaultSchedules takes that schedule unless its flag sets another;
+// any other job runs on request only.
+func builtinJobs(st *store.Store, log *slog.Logger, n *jobs.Notifier) []jobs.Job {
+	return []jobs.Job{
+		jobs.AssessJob{Assessor: jobs.NewAssessor(st, jobs.AssessConfig{Log: log, Notify: n != nil}), Notifier: n},
+	}
+}
+
+// jobFlags are serve's scheduler settings.
+type jobFlags struct {
+	scheduler   string
+	schedules   map[string]*string
+	staleAfter  time.Duration
+	stopTimeout time.Duration
+}
+
+// addJobFlags registers the scheduler flags on fs, their defaults taken
+// from the environment.
+func addJobFlags(fs *flag.FlagSet, getenv func(string) string) *jobFlags {
+	f := &jobFlags{schedules: map[string]*string{}}
+	fs.StringVar(&f.scheduler, "scheduler", envOr(getenv, "KELVARD_SCHEDULER", "on"),
+		"on: this replica fires the job schedules; off: it serves manual runs only (KELVARD_SCHEDULER)")
+	defaults := jobs.DefaultSchedules()
+	for _, name := range []string{jobs.Assess, jobs.Plan, jobs.Retention} {
+		env := "KELVARD_" + strings.ToUpper(name) + "_SCHEDULE"
+		f.schedules[name] = fs.String(name+"-schedule", envOr(getenv, env, defaults[name]),
+			fmt.Sprintf("cron expression (minute hour day month weekday, UTC) for the %s job, or off (%s)", name, env))
+	}
+	fs.DurationVar(&f.staleAfter, "job-stale-after", envDuration(getenv, "KELVARD_JOB_STALE_AFTER", 10*time.Minute),
+		"a running job whose heartbeat is older is taken to have died with its replica (KELVARD_JOB_STALE_AFTER)")
+	fs.DurationVar(&f.stopTimeout, "job-stop-timeout", envDuration(getenv, "KELVARD_JOB_STOP_TIMEOUT", 30*time.Second),
+		"at shutdown, how long to wait for a running job before cancelling it (KELVARD_JOB_STOP_TIMEOUT)")
+	return f
+}
+
+// jobStats reads each job's last run from the store for the job metrics,
+// so every replica reports the same values.
+func jobStats(st *store.Store) func(ctx context.Context) ([]api.JobStat, error) {
+	return func(ctx context.Context) ([]api.JobStat, error) {
+		stats, err := st.JobRunStats(ctx)
+		if err != nil {
+			return nil, err
+		}
+		out := make([]api.JobStat, 0, len(stats))
+		for _, s := range stats {
+			js := api.JobStat{Job: s.Job}
+			if d, ok := s.LastDuration(); ok {
+				js.LastDurationS = d.Seconds()
+			}
+			if s.LastSuccessAt != nil {
+				js.LastSuccessUnix, js.HasSuccess = float64(s.LastSuccessAt.UnixNano())/1e9, true
+			}
+			out = append(out, js)
+		}
+		return out, nil
+	}
+}
+
+// envDuration reads a duration default from the environment; a value that
+// does not parse is left for the flag package to report.
+func envDuration(getenv func(string) string, key string, def time.Duration) time.Duration {
+	if v := getenv(key); v != "" {
+		if d, err := time.ParseDuration(v); err == nil {
+			return d
+		}
+	}
+	return def
+}
+
+// build makes the scheduler over the jobs; it refuses bad settings as
+// usage errors.
+func (f *jobFlags) build(st *store.Store, log *slog.Logger, js []jobs.Job) (*jobs.Scheduler, error) {
+	if f.scheduler != "on" && f.scheduler != "off" {
+		return nil, usageError{fmt.Errorf("--scheduler %q: want on or off", f.scheduler)}
+	}
+	schedules := map[string]string{}
+	for name, spec := range f.schedules {
+		schedules[name] = *spec
+	}
+	s, err := jobs.New(jobs.Config{Store: st, Jobs: js, Schedules: schedules, StaleAfter: f.staleAfter,
+		Logger: log.With(slog.String("component", "jobs"))})
+	if err != nil {
+		return nil, usageError{err}
+	}
+	return s, nil
+}
+
+// start fires the schedules when the scheduler is on for this replica.
+func (f *jobFlags) start(s *jobs.Scheduler, log *slog.Logger) error {
+	if f.scheduler == "off" {
+		log.Info("scheduler off on this replica: jobs run only on request", slog.Any("jobs", s.Names()))
+		return nil
+	}
+	if len(s.Names()) == 0 {
+		log.Info("scheduler on, no jobs registered")
+	}
+	return s.Start()
+}
+
+// stop stops the scheduler, waiting up to the stop timeout for a running
+// job to finish.
+func (f *jobFlags) stop(s *jobs.Scheduler, log *slog.Logger) {
+	ctx, cancel := context.WithTimeout(context.Background(), f.stopTimeout)
+	defer cancel()
+	if err := s.Stop(ctx); err != nil {
+		log.Error("stop jobs", slog.Any("err", err))
+	}
 }

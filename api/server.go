@@ -44,6 +44,9 @@ type Config struct {
 	MetricsToken bool
 	// JobStats reports each job's last run for the job metrics.
 	JobStats func(ctx context.Context) ([]JobStat, error)
+	// Jobs lists job runs and starts manual ones (*jobs.Scheduler); nil
+	// answers the job endpoints with 503.
+	Jobs JobRunner
 }
 
 // Server is kelvard's HTTP handler.

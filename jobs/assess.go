@@ -675,3 +675,31 @@ func blankSample(at int64) health.Sample {
 	return health.Sample{At: at, InternalAirC: n, AmbientC: n, HeatsinkC: n, CurrentA: n, PeakCurrentA: n, FrequencyHz: n,
 		BusV: n, BusRippleV: n, CapacitanceUF: n, ESRMilliohm: n}
 }
+
+// AssessJob runs the assessment under the scheduler.
+type AssessJob struct {
+	Assessor *Assessor
+	// Full recomputes every drive (the CLI's --full).
+	Full bool
+	// Notifier, when set, posts new critical findings after each run.
+	Notifier *Notifier
+}
+
+// Name implements Job.
+func (j AssessJob) Name() string { return Assess }
+
+// Run implements Job.
+func (j AssessJob) Run(ctx context.Context, _ time.Time, progress func(done, total int)) (Stats, error) {
+	sum, err := j.Assessor.Assess(ctx, AssessOptions{Full: j.Full, Progress: progress})
+	st := Stats{Drives: sum.Drives, Readings: sum.Readings,
+		Note: fmt.Sprintf("%d drives, %d readings, %d recomputed", sum.Drives, sum.Readings, sum.Recomputed)}
+	if err != nil {
+		return st, err
+	}
+	if j.Notifier != nil {
+		if _, err := j.Notifier.DeliverDue(ctx); err != nil {
+			j.Assessor.cfg.Log.Warn("webhook delivery", slog.Any("err", err))
+		}
+	}
+	return st, nil
+}
