@@ -38,8 +38,7 @@ func ParseReadingsCSV(r io.Reader, opts ParseOptions) (ReadingBatch, error) {
 		}
 		c, ok := inputColumnIndex(name)
 		if !ok {
-			return ReadingBatch{}, &MalformedError{Fields: []FieldError{{Field: name, Line: 1,
-				Reason: "is not a reading column; the columns are " + strings.Join(ReadingInputColumns(), ", ")}}}
+			return ReadingBatch{}, unknownColumn(name, 0, 1)
 		}
 		if seen[c] {
 			return ReadingBatch{}, malformed(name, 1, "appears twice in the header")

@@ -2,7 +2,6 @@ package store
 
 import (
 	"bytes"
-	"strings"
 	"unicode/utf16"
 	"unicode/utf8"
 )
@@ -146,8 +145,7 @@ func (d *jsonScanner) object(row, line int) (Reading, []FieldError, error) {
 		}
 		col, ok := inputColumnOf(key)
 		if !ok {
-			return rd, nil, &MalformedError{Fields: []FieldError{{Field: strings.ToValidUTF8(string(key), "\uFFFD"), Row: row, Line: line,
-				Reason: "is not a reading column; the columns are " + strings.Join(ReadingInputColumns(), ", ")}}}
+			return rd, nil, unknownColumn(string(key), row, line)
 		}
 		d.ws()
 		if d.peek() != ':' {

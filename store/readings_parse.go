@@ -87,6 +87,17 @@ func inputColumnIndex(name string) (readingColumn, bool) {
 	return 0, false
 }
 
+// unknownColumn is the error for a column or key that is not a reading
+// column; an empty name is shown as "(empty)".
+func unknownColumn(name string, row, line int) *MalformedError {
+	name = strings.ToValidUTF8(name, "\uFFFD")
+	if name == "" {
+		name = "(empty)"
+	}
+	return &MalformedError{Fields: []FieldError{{Field: name, Row: row, Line: line,
+		Reason: "is not a reading column; the columns are " + strings.Join(ReadingInputColumns(), ", ")}}}
+}
+
 // columnName names an input column.
 func (c readingColumn) name() string {
 	switch c {
