@@ -80,6 +80,7 @@ func (s *Server) routes() {
 		Summary: "Move the drive into a position (position_id) or out of its position (position_id null), in one transaction",
 		Request: store.Move{}, Response: store.MoveResult{}, Status: http.StatusCreated}, s.moveDrive)
 	registerCRUD[store.Event](s, crudSpec{path: v1 + "/events", itemParam: "id", tag: "register"})
+	s.readingRoutes(v1)
 
 	s.route(operation{Method: http.MethodGet, Path: v1 + "/tokens", Summary: "List tokens (never their secrets)", Tag: "admin",
 		Role: store.RoleAdmin, Response: []store.Token{}}, s.listTokens)

@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"github.com/gin-gonic/gin"
+	"github.com/prometheus/client_golang/prometheus"
 
 	"kelvard/store"
 )
@@ -30,6 +31,14 @@ type Config struct {
 	// Ready, when set, is asked by /readyz besides the database checks (the
 	// demo loader, say, holds readiness until its first assessment).
 	Ready func(ctx context.Context) error
+	// MaxIngestBytes caps a readings body (default 32 MiB) and
+	// MaxIngestRows the readings in one request (default 50 000); more is
+	// answered 413.
+	MaxIngestBytes int64
+	MaxIngestRows  int
+	// Metrics is where the server registers its counters (the readings
+	// ingested and rejected); nil registers them nowhere.
+	Metrics prometheus.Registerer
 }
 
 // Server is kelvard's HTTP handler.
@@ -39,6 +48,7 @@ type Server struct {
 	log    *slog.Logger
 	engine *gin.Engine
 	ops    []operation
+	ingest *IngestMetrics
 	// migrated caches a positive migrations check: once current, a running
 	// binary's schema stays current.
 	migrated atomic.Bool
@@ -66,6 +76,9 @@ func New(cfg Config, st *store.Store, log *slog.Logger) (*Server, error) {
 		return nil, err
 	}
 	s := &Server{cfg: cfg, store: st, log: log, engine: e}
+	if err := s.initReadings(); err != nil {
+		return nil, err
+	}
 	e.Use(s.recoverPanics, s.accessLog, s.securityHeaders)
 	e.NoRoute(func(c *gin.Context) {
 		writeProblem(c, Problem{Status: http.StatusNotFound, Detail: "no such endpoint; see /api/v1/openapi.json"})
