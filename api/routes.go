@@ -91,6 +91,7 @@ func (s *Server) routes() {
 	s.healthRoutes(v1)
 	s.registerCSV(v1)
 	s.jobRoutes(v1)
+	s.readingRoutes(v1)
 
 	s.route(operation{Method: http.MethodGet, Path: v1 + "/tokens", Summary: "List tokens (never their secrets)", Tag: "admin",
 		Role: store.RoleAdmin, Response: []store.Token{}}, s.listTokens)

@@ -47,6 +47,11 @@ type Config struct {
 	// Jobs lists job runs and starts manual ones (*jobs.Scheduler); nil
 	// answers the job endpoints with 503.
 	Jobs JobRunner
+	// MaxIngestBytes caps a readings body (default 32 MiB) and
+	// MaxIngestRows the readings in one request (default 50 000); more is
+	// answered 413.
+	MaxIngestBytes int64
+	MaxIngestRows  int
 }
 
 // Server is kelvard's HTTP handler.
@@ -58,6 +63,7 @@ type Server struct {
 	ops    []operation
 	// registry is what /metrics serves.
 	registry *prometheus.Registry
+	ingest *IngestMetrics
 	// migrated caches a positive migrations check: once current, a running
 	// binary's schema stays current.
 	migrated atomic.Bool
@@ -93,6 +99,9 @@ func New(cfg Config, st *store.Store, log *slog.Logger) (*Server, error) {
 		return nil, err
 	}
 	s.registry = reg
+	if err := s.initReadings(); err != nil {
+		return nil, err
+	}
 	e.Use(s.recoverPanics, s.accessLog, s.securityHeaders)
 	e.NoRoute(func(c *gin.Context) {
 		writeProblem(c, Problem{Status: http.StatusNotFound, Detail: "no such endpoint; see /api/v1/openapi.json"})

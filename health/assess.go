@@ -206,6 +206,7 @@ func AssessDrive(in DriveInput) (DriveAssessment, error) {
 		}
 	}
 
+	found = mergeByRule(found)
 	// Carry forward the findings of checks that did not run.
 	for _, f := range in.Previous {
 		if !slices.Contains(evaluated, f.Rule) && !slices.ContainsFunc(found, func(g Finding) bool { return g.Rule == f.Rule }) {
@@ -321,4 +322,28 @@ func (p DriveParams) Validate() error {
 		}
 	}
 	return nil
+}
+
+// mergeByRule folds findings of one rule into one (a rule holds once per
+// drive): the worst severity, the messages joined, the evidence of all.
+// Data-quality checks, for example, raise one finding per stuck field.
+func mergeByRule(fs []Finding) []Finding {
+	out := make([]Finding, 0, len(fs))
+	at := map[string]int{}
+	for _, f := range fs {
+		i, seen := at[f.Rule]
+		if !seen {
+			at[f.Rule] = len(out)
+			out = append(out, f)
+			continue
+		}
+		m := &out[i]
+		if f.Severity.Rank() > m.Severity.Rank() {
+			m.Severity = f.Severity
+		}
+		m.Message += " " + f.Message
+		m.Evidence = append(slices.Clone(m.Evidence), f.Evidence...)
+		m.PhysicalWork = m.PhysicalWork || f.PhysicalWork
+	}
+	return out
 }

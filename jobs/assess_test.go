@@ -173,10 +173,11 @@ func TestGapFilledConservatively(t *testing.T) {
 		r.ingest(1, 101, air, 77)
 		r.ingest(111, 201, air, 77) // hours 101..110 missing
 		rep := report(t, r.assess(false))
-		// 100 + 90 logged hours at 160 000 h; the 11 h interval from hour
-		// 100 to 111 is a gap filled at the area's design maximum, 35 °C,
-		// with full rated ripple: core 40 °C, L = 5000 × 2^7 = 640 000 h.
-		want := 190.0/160000 + 11.0/640000
+		// 100 + 89 logged hourly intervals at 160 000 h; the 11 h interval
+		// from hour 100 to 111 is a gap filled at the area's design maximum,
+		// 35 °C, with full rated ripple: core 40 °C, L = 5000 × 2^7 =
+		// 640 000 h.
+		want := 189.0/160000 + 11.0/640000
 		relClose(t, "capacitor life used", rep.Capacitor.LifeUsedFraction, want, 1e-9)
 	})
 }
@@ -338,6 +339,12 @@ func TestFindingsLifecycle(t *testing.T) {
 			t.Fatal(err)
 		}
 		r.now = r.now.Add(time.Hour)
+		r.assess(false)
+		if got := findOne(t, r, "enclosure.water"); got.ClearedAt == nil {
+			t.Errorf("the condition cleared but the finding has no cleared time: %+v", got)
+		}
+		// Cleared for longer than ResolveAfter: resolved on the next run.
+		r.now = r.now.Add(2 * time.Hour)
 		r.assess(false)
 		page, err := r.st.ListFindings(ctx, store.ListQuery{Filters: map[string]string{"rule": "enclosure.water", "status": "resolved"}})
 		if err != nil || len(page.Items) != 1 || page.Items[0].ResolvedAt == nil {

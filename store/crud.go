@@ -231,6 +231,9 @@ func insert[T any, P Record[T]](ctx context.Context, tx *gorm.DB, v *T) error {
 			return err
 		}
 	}
+	if err := markAffected(tx, p); err != nil {
+		return err
+	}
 	return writeAudit(ctx, tx, "create", p.info().Name, p.Key(), nil, p)
 }
 
@@ -285,6 +288,9 @@ func update[T any, P Record[T]](ctx context.Context, tx *gorm.DB, d Dialect, id 
 	}
 	if err := tx.Save(p).Error; err != nil {
 		return out, false, translate(err)
+	}
+	if err := markAffected(tx, p); err != nil {
+		return out, false, err
 	}
 	return v, true, writeAudit(ctx, tx, "update", info.Name, id, &before, p)
 }

@@ -127,6 +127,9 @@ func moveDrive(ctx context.Context, tx *gorm.DB, dialect Dialect, driveID int64,
 			if err := tx.Select("position_id", "status", "last_energised_at", "updated_at").Save(&d).Error; err != nil {
 				return fmt.Errorf("update drive %d: %w", d.ID, translate(err))
 			}
+			if err := markRecompute(tx, tx.Raw("SELECT CAST(? AS bigint)", d.ID)); err != nil {
+				return err
+			}
 			return writeAudit(ctx, tx, "remove", "drives", d.ID, &before, &d)
 		}
 
@@ -163,6 +166,9 @@ func moveDrive(ctx context.Context, tx *gorm.DB, dialect Dialect, driveID int64,
 		}
 		res.Opened = &in
 		if err := writeAudit(ctx, tx, "create", "installations", in.ID, nil, &in); err != nil {
+			return err
+		}
+		if err := markRecompute(tx, tx.Raw("SELECT CAST(? AS bigint) UNION SELECT CAST(? AS bigint)", d.ID, ptrOr(res.Displaced, d.ID))); err != nil {
 			return err
 		}
 		return writeAudit(ctx, tx, "install", "drives", d.ID, &before, &d)
@@ -203,9 +209,19 @@ func closeInstallation(tx *gorm.DB, column string, id int64, at time.Time) (int6
 	return in.ID, nil
 }
 
+func ptrOr(p *int64, def int64) int64 {
+	if p == nil {
+		return def
+	}
+	return *p
+}
+
 // beforeDelete undoes an installation: when it is the drive's current one,
 // the drive goes back to stores.
 func (r *Installation) beforeDelete(ctx context.Context, tx *gorm.DB) error {
+	if err := markRecompute(tx, tx.Raw("SELECT CAST(? AS bigint)", r.DriveID)); err != nil {
+		return err
+	}
 	if r.RemovedAt != nil {
 		return nil
 	}

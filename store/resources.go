@@ -155,7 +155,7 @@ var (
 			{Param: "status", Column: "status", Kind: FilterEnum, Values: enumStrings(health.DriveStatuses())},
 		},
 		scope:        "site_id IN ?",
-		referencedBy: [][2]string{{"installations", "drive_id"}, {"events", "drive_id"}},
+		referencedBy: [][2]string{{"installations", "drive_id"}, {"events", "drive_id"}, {"readings", "drive_id"}},
 	}
 	componentInfo = &ResourceInfo{
 		Name: "components", Table: "components",

@@ -47,6 +47,7 @@ type Store struct {
 	dialect Dialect
 	log     *slog.Logger
 	now     func() time.Time
+	parts   partitionSet // readings partitions known to exist (PostgreSQL)
 }
 
 // Options tunes Open. The zero value is usable.
