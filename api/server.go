@@ -63,7 +63,7 @@ type Server struct {
 	ops    []operation
 	// registry is what /metrics serves.
 	registry *prometheus.Registry
-	ingest *IngestMetrics
+	ingest   *IngestMetrics
 	// migrated caches a positive migrations check: once current, a running
 	// binary's schema stays current.
 	migrated atomic.Bool

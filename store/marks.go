@@ -36,11 +36,15 @@ func (r *Position) affected(tx *gorm.DB) *gorm.DB {
 
 func (r *Drive) affected(tx *gorm.DB) *gorm.DB { return tx.Raw("SELECT CAST(? AS bigint)", r.ID) }
 
-func (r *Component) affected(tx *gorm.DB) *gorm.DB { return tx.Raw("SELECT CAST(? AS bigint)", r.DriveID) }
+func (r *Component) affected(tx *gorm.DB) *gorm.DB {
+	return tx.Raw("SELECT CAST(? AS bigint)", r.DriveID)
+}
 
 func (r *Event) affected(tx *gorm.DB) *gorm.DB { return tx.Raw("SELECT CAST(? AS bigint)", r.DriveID) }
 
-func (r *Installation) affected(tx *gorm.DB) *gorm.DB { return tx.Raw("SELECT CAST(? AS bigint)", r.DriveID) }
+func (r *Installation) affected(tx *gorm.DB) *gorm.DB {
+	return tx.Raw("SELECT CAST(? AS bigint)", r.DriveID)
+}
 
 // markAffected marks the drives a write touched for recompute.
 func markAffected(tx *gorm.DB, rec any) error {
