@@ -116,8 +116,6 @@ type simDrive struct {
 type pendingInstall struct {
 	d  *simDrive
 	at time.Time
-	// note says why (swap or emergency purchase).
-	note string
 }
 
 // repairJob is a failed unit in the workshop.
@@ -317,7 +315,7 @@ func (m *sim) initialFleet() {
 		if p.plantHotKiosk {
 			d.noFail, d.noCapPM = true, true
 		}
-		m.install(d, p, at, "")
+		m.install(d, p, at)
 		// Age the unit to HistoryStart: the parts it has had replaced by
 		// plan since it was installed show as component rows before
 		// HistoryStart; only the latest of each kind is listed.
@@ -385,8 +383,7 @@ func (m *sim) specNamed(name string) *modelSpec {
 }
 
 // install opens a stay of d at p.
-func (m *sim) install(d *simDrive, p *posPlan, at time.Time, note string) {
-	_ = note
+func (m *sim) install(d *simDrive, p *posPlan, at time.Time) {
 	d.pos, d.status, d.reserved, d.everInstalled = p, health.StatusInstalled, false, true
 	d.since = at
 	m.atPos[p.idx] = d
@@ -527,7 +524,7 @@ func (m *sim) runPosition(p *posPlan, end time.Time) {
 				return
 			}
 			m.pending[p.idx] = nil
-			m.install(pi.d, p, pi.at, pi.note)
+			m.install(pi.d, p, pi.at)
 			continue
 		}
 		at, kind := m.nextEvent(d)
@@ -754,7 +751,7 @@ func (m *sim) swap(d *simDrive, p *posPlan, at time.Time, mode health.FailureMod
 		note = noteFailureNoSpare
 	}
 	spare.reserved = true
-	m.pending[p.idx] = &pendingInstall{d: spare, at: in, note: note}
+	m.pending[p.idx] = &pendingInstall{d: spare, at: in}
 	m.noteFailure(d, at, note)
 
 	// Keep a spare of the model on the shelf: order one if none is there
