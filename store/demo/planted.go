@@ -56,26 +56,25 @@ const kioskLifeUsedTarget = 0.94
 // The arithmetic, by hand, with the 10-degree rule (capacitor makers'
 // application notes; DESIGN.md section 3). The bank is a 5000 h part rated
 // at 105 °C with rated ripple and 5 °C core rise, so Tref = 105 + 5 =
-// 110 °C. The kiosk air averages about 38 °C (site mean 21 °C, 15 K of
-// trapped drive losses and about 2 K of sun on the steel). The booster runs
-// near full speed at about 0.66 of rated current, so the air inside the
-// compact sealed drive sits 8 + 34 × 0.66² ≈ 22.8 K above the kiosk air,
-// about 60.8 °C, and the capacitor core 5 × 0.66² ≈ 2.2 K above that,
-// about 63 °C:
+// 110 °C. The kiosk air averages about 37 °C (site mean 21 °C, 15 K of
+// trapped drive losses and about 1 K of sun on the steel). The booster runs
+// near full speed at about 0.70 of rated current, so the air inside the
+// compact sealed drive sits 8 + 34 × 0.70² ≈ 24.7 K above the kiosk air,
+// about 62 °C, and the capacitor core 5 × 0.70² ≈ 2.5 K above that, about
+// 64 °C:
 //
-//	L = 5000 × 2^((110 − 63) / 10) = 5000 × 2^4.7 ≈ 130 000 h at the mean.
+//	L = 5000 × 2^((110 − 64) / 10) = 5000 × 2^4.6 ≈ 121 000 h at the mean.
 //
-// 2^(T/10) is convex, so the yearly and daily swings (about ±6 K and ±4 K)
-// and the running and stopped hours raise the mean damage rate by a fifth
-// or so: the bank uses about 8760 / 105 000 ≈ 0.083 of its life a year.
-// Installed 0.92 / 0.083 ≈ 11 years before Now, it has used about 0.92;
-// at the trailing year's rate the remaining 0.08 lasts about 0.08 / 0.083
-// ≈ 0.96 year, and with the hot summer just past weighing more in a rate
-// taken over the trailing twelve months the projection falls inside the
-// 365-day horizon. The generator takes the rate from the position's
-// profile (the same year the readings carry) rather than this rounded
-// figure; TestPlantedKioskCapacitors checks life used and the projected end
-// of life from the generated readings.
+// 2^(T/10) is convex, so the yearly and daily swings (about ±6 K and ±4 K
+// in the kiosk, more inside the drive) raise the mean damage rate by about
+// a tenth: the bank uses about 8760 / 110 000 ≈ 0.080 of its life a year.
+// Installed 0.94 / 0.080 ≈ 11.7 years before Now, it has used about 0.94,
+// and at the trailing year's rate the remaining 0.06 lasts about
+// 0.06 / 0.080 ≈ 0.75 year, some 275 days: inside the 365-day horizon,
+// outside the 90-day one. The generator takes the rate from the position's
+// profile (the same year the readings carry) rather than these rounded
+// figures; the generated year gives life used 0.938 and 285 days, checked
+// from the readings by TestPlantedKioskCapacitors.
 func plantKioskInstall(now time.Time, pr profile) time.Time {
 	h := kioskLifeUsedTarget / pr.capPerH
 	return addHours(now, -h)
