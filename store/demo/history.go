@@ -989,10 +989,12 @@ func (m *sim) finish() {
 		}
 		slices.SortFunc(p.stops, func(a, b stop) int { return a.from.Compare(b.from) })
 	}
-	// The last energising round of the stores: every June (local time).
-	round := time.Date(s.Now.Year(), time.June, 15, 8, 0, 0, 0, time.UTC)
-	if round.After(s.Now) {
-		round = round.AddDate(-1, 0, 0)
+	// The last energising round of the stores: mid-June and mid-December,
+	// so no spare on the list goes a year unpowered (common practice is at
+	// least yearly).
+	round := time.Date(s.Now.Year()+1, time.June, 15, 8, 0, 0, 0, time.UTC)
+	for round.After(s.Now) {
+		round = round.AddDate(0, -6, 0)
 	}
 	spares := map[string]int{}
 	for _, d := range m.drives {

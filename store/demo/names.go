@@ -150,7 +150,7 @@ const (
 	notePosRegen      = "Deceleration ramp shortened to raise throughput."
 	notePosRipple     = "Duty blower; runs every day."
 	noteDriveShelved  = "Strategic spare shelved in the wrong bay and missed by the energising rounds."
-	noteDriveSpareNew = "Bought as a spare; energised in the yearly energising round."
+	noteDriveSpareNew = "Bought as a spare; energised in the half-yearly energising rounds."
 )
 
 // Notes on events and components.

@@ -455,3 +455,72 @@ func TestPlantedSilent(t *testing.T) {
 		}
 	}
 }
+
+// TestPlantedProblemsHoldForAnySeedAndNow checks that the scenario's
+// findings come from its layout, not from luck: for other seeds and
+// reference times (serve --demo uses the present), the health models raise
+// the same rules on the same positions as for the checked-in files, the
+// planted capacitor, storage and wear-out cases hold, and the same
+// positions are clean.
+func TestPlantedProblemsHoldForAnySeedAndNow(t *testing.T) {
+	if testing.Short() {
+		t.Skip("generates three more scenarios")
+	}
+	base := expected(t)
+	strip := func(ex Expected) []ExpectedFinding {
+		var out []ExpectedFinding
+		for _, f := range ex.Findings {
+			if strings.HasPrefix(f.Subject, "drive:") {
+				f.Subject = "drive:"
+			}
+			out = append(out, f)
+		}
+		return out
+	}
+	for _, c := range []struct {
+		seed uint64
+		now  time.Time
+	}{
+		{2, time.Date(2027, 6, 14, 9, 0, 0, 0, time.UTC)},
+		{3, time.Date(2026, 2, 28, 23, 0, 0, 0, time.UTC)},
+		{42, time.Date(2029, 9, 1, 5, 0, 0, 0, time.UTC)},
+	} {
+		s := Generate(c.seed, c.now)
+		ex, err := s.ExpectedFindings()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got, want := strip(ex), strip(base); !slices.Equal(got, want) {
+			t.Errorf("seed %d, now %v: findings differ from the checked-in scenario's:\n got %v\nwant %v", c.seed, c.now, got, want)
+		}
+		if !slices.Equal(ex.Clean, base.Clean) {
+			t.Errorf("seed %d, now %v: clean %v, want %v", c.seed, c.now, ex.Clean, base.Clean)
+		}
+		tg := tag(tagBoosters, tagKindPump, 3)
+		capD, _, rate, _ := trailingLife(s, tg)
+		if days := (1 - capD) / rate / 24; capD < 0.85 || capD > 0.95 || days <= 90 || days >= 365 {
+			t.Errorf("seed %d, now %v: kiosk life used %.3f, end of life in %.0f days", c.seed, c.now, capD, days)
+		}
+		for _, p := range s.plans {
+			if p.plantHotKiosk {
+				continue
+			}
+			capD, fanD, cr, fr := trailingLife(s, p.row.Tag)
+			if (1-capD)/cr/24 < 548 || (1-fanD)/fr/24 < 548 {
+				t.Errorf("seed %d, now %v: %s near the end of its calculated life (capacitor %.2f, fan %.2f)", c.seed, c.now, p.row.Tag, capD, fanD)
+			}
+		}
+		for _, d := range s.Drives {
+			if d.Status != health.StatusInStores {
+				continue
+			}
+			days := s.Now.Sub(*d.LastEnergisedAt).Hours() / 24
+			if planted := slices.Contains(s.Planted, plantedStorage(d.Serial)); planted != (days > 730) || (!planted && days > 335) {
+				t.Errorf("seed %d, now %v: spare %s unpowered %.0f days (planted %v)", c.seed, c.now, d.Serial, days, planted)
+			}
+		}
+		if !mainGroupsHaveFailures(s) {
+			t.Errorf("seed %d, now %v: a main model group has fewer than three capacitor or fan failures", c.seed, c.now)
+		}
+	}
+}
