@@ -15,6 +15,7 @@ import (
 // 0.9 whatever window or ambient the assessment takes, a healthy bus and
 // steady readings, and not one finding from the health models.
 func TestCleanPositions(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	ex := expected(t)
 	g1 := 0
@@ -73,6 +74,7 @@ func TestCleanPositions(t *testing.T) {
 // 90 days and the whole year, and at the design maximum ambient or the
 // hottest logged one for drives in their own enclosure.
 func TestDutyFindingsHoldForAnyWindow(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	for _, p := range s.plans {
 		tg := p.row.Tag

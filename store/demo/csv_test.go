@@ -58,6 +58,7 @@ func jsonPaths(typ reflect.Type) map[string]bool {
 // natural keys, then the JSON names of the create fields (store.Info),
 // nested objects flattened with dots.
 func TestRegisterHeadersAreAPIFieldNames(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	cases := []struct {
 		file    string
@@ -113,6 +114,7 @@ func TestRegisterHeadersAreAPIFieldNames(t *testing.T) {
 // TestCellFormats checks the cell conventions: carrier tables, booleans,
 // RFC 3339 UTC times, and empty cells for what is not given.
 func TestCellFormats(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	models := readCSV(t, s, FileModels)
 	if got := models[1][column(t, models, "carrier_derate")]; got != "6:0.90;8:0.80;12:0.65;16:0.55" {

@@ -22,6 +22,7 @@ func digests(t *testing.T, s *Scenario) map[string]string {
 }
 
 func TestSameSeedAndNowGiveTheSameBytes(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("generates four scenarios")
 	}
@@ -58,6 +59,7 @@ func TestSameSeedAndNowGiveTheSameBytes(t *testing.T) {
 }
 
 func TestGenerateStampsItsInputs(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	if s.Seed != demoSeed || !s.Now.Equal(demoNow) {
 		t.Fatalf("seed %d now %v, want %d %v", s.Seed, s.Now, demoSeed, demoNow)

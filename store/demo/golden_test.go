@@ -27,6 +27,7 @@ const goldenExpected = "expected_findings.golden"
 // after decompression, so a change in the compressor's output between Go
 // versions does not fail the test while any change in the data does.
 func TestGoldenFiles(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	ex := expected(t)
 	golden := ex.Golden(demoSeed, demoNow)

@@ -9,6 +9,7 @@ import (
 )
 
 func TestCountsAreInRange(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	cases := []struct {
 		what   string
@@ -52,6 +53,7 @@ func TestCountsAreInRange(t *testing.T) {
 }
 
 func TestEveryPlantedSubjectExists(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	if len(s.Planted) != 11 {
 		t.Errorf("%d planted problems, want 11 (DESIGN.md section 6)", len(s.Planted))
@@ -80,6 +82,7 @@ func cutPrefix(s, p string) (string, bool) {
 // before it in import order, and that events name the drive that stood at
 // their position then.
 func TestReferencesResolve(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	sites := map[string]bool{}
 	for _, st := range s.Sites {
@@ -189,6 +192,7 @@ func validEvent(e Event) string {
 // every position has exactly one drive at Now, and drive statuses follow
 // from the history.
 func TestInstallationHistoryIsConsistent(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	byPos := map[string][]Installation{}
 	byDrive := map[string][]Installation{}
@@ -246,6 +250,7 @@ func TestInstallationHistoryIsConsistent(t *testing.T) {
 // the reading year while a working drive stands there, except the silent
 // position, whose readings stop several days before Now.
 func TestReadingsAreHourly(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	total, missing := 0, 0
 	for _, p := range s.plans {
@@ -316,6 +321,7 @@ func explainGap(s *Scenario, tag string, at time.Time) string {
 // zero together; heatsink above ambient while running; bus near √2 × line
 // when stopped).
 func TestReadingValues(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	for _, p := range s.plans {
 		m := p.model
@@ -385,6 +391,7 @@ func swappedBetween(s *Scenario, tag string, a, b time.Time) bool {
 // than in January and at 15:00 than at 05:00 local time, and the
 // high-lift pumps draw more current at full speed than at low speed.
 func TestReadingsFollowTheWeather(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	rs := s.PositionReadings(tag(tagIntake, tagKindPump, 2))
 	mean := func(keep func(r Reading) bool, v func(r Reading) float64) float64 {

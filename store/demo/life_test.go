@@ -13,6 +13,7 @@ import (
 // at 105 °C gives 80 000 h at 65 °C; a part rated with ripple lasts exactly
 // its rated life at the reference core temperature T0 + dT_rated.
 func TestTenDegreeRule(t *testing.T) {
+	t.Parallel()
 	noRipple := func(l0 float64) store.CapacitorSpec {
 		return store.CapacitorSpec{RatedLifeH: l0, RatedTempC: 105}
 	}
@@ -48,6 +49,7 @@ func TestTenDegreeRule(t *testing.T) {
 // section 3): L10 at the reference temperature, halving every interval
 // hotter and doubling every interval cooler.
 func TestFanHalvingRule(t *testing.T) {
+	t.Parallel()
 	spec := store.FanSpec{L10H: 40000, RefTempC: 60, HalvingInterval: 10}
 	for _, c := range []struct{ airC, want float64 }{{60, 40000}, {70, 20000}, {50, 80000}, {75, 40000 / math.Pow(2, 1.5)}} {
 		if got := fanLifeH(spec, c.airC); math.Abs(got-c.want) > 1e-9*c.want {

@@ -44,6 +44,7 @@ func vocabulary(t *testing.T) map[string]bool {
 // names.go, where every name of the scenario is invented. A real name
 // cannot slip in from another file without failing here.
 func TestNamesComeFromTheWordLists(t *testing.T) {
+	t.Parallel()
 	vocab := vocabulary(t)
 	s := demoScenario()
 	textColumns := map[string][]string{

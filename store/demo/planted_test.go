@@ -15,6 +15,7 @@ import (
 // it. Capacitor and storage rules have no model in package health yet; the
 // tests below size them by hand.
 func TestPlantedRulesAreRaised(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	ex := expected(t)
 	for _, pl := range s.Planted {
@@ -65,6 +66,7 @@ func ruleSeverities(fs []health.Finding) []ruleSeverity {
 // TestPlantedEnclosures pins what health.JudgeEnclosure answers for the
 // three planted enclosure and board problems.
 func TestPlantedEnclosures(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	cases := []struct {
 		tag  string
@@ -115,6 +117,7 @@ func TestPlantedEnclosures(t *testing.T) {
 // predicts air far above the drive's rated ambient at the design point, and
 // the logged cabinet air runs above the rated ambient on summer days.
 func TestPlantedCabinet(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	tg := tag(tagIntake, tagKindScr, 1)
 	pos, _ := s.Position(tg)
@@ -194,6 +197,7 @@ func duty(t *testing.T, s *Scenario, tg string, win time.Duration, airC float64)
 // TestPlantedDerating checks the single-phase drive and the raised carrier
 // with health.AllowedCurrent and health.AssessDuty.
 func TestPlantedDerating(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	month := 30 * 24 * time.Hour
 
@@ -237,6 +241,7 @@ func TestPlantedDerating(t *testing.T) {
 // centrifuge that trips on over-voltage while decelerating, with
 // health.RippleTrendOf and health.AssessDCBus.
 func TestPlantedDCBus(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	p := health.DefaultDCBusParams()
 	now := s.Now.Unix()
@@ -329,6 +334,7 @@ func trailingLife(s *Scenario, tg string) (capD, fanD, capRate, fanRate float64)
 // 0.85 and 0.95, and at the trailing year's damage rate the rest lasts
 // less than 365 days (more than 90, so the finding is minor, not major).
 func TestPlantedKioskCapacitors(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	tg := tag(tagBoosters, tagKindPump, 3)
 	capD, _, rate, _ := trailingLife(s, tg)
@@ -367,6 +373,7 @@ func TestPlantedKioskCapacitors(t *testing.T) {
 // each has at least a year and a half left, so only the planted kiosk
 // raises a capacitor finding and no unit a fan finding.
 func TestNoUnplannedWearOut(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	for _, p := range s.plans {
 		if p.plantHotKiosk {
@@ -386,6 +393,7 @@ func TestNoUnplannedWearOut(t *testing.T) {
 // years, and that every other unit in the stores was energised within the
 // last 335 days (no energising advice due; common practice is yearly).
 func TestPlantedStorage(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	shelved := 0
 	for _, d := range s.Drives {
@@ -434,6 +442,7 @@ func TestPlantedStorage(t *testing.T) {
 // Now (a major finding), and no other position raises a data-quality
 // finding.
 func TestPlantedSilent(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	for _, p := range s.plans {
 		fs, err := s.PositionFindings(p.row.Tag)
@@ -463,6 +472,7 @@ func TestPlantedSilent(t *testing.T) {
 // planted capacitor, storage and wear-out cases hold, and the same
 // positions are clean.
 func TestPlantedProblemsHoldForAnySeedAndNow(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("generates three more scenarios")
 	}

@@ -18,6 +18,7 @@ import (
 // the natural keys as an importer would. Then every drive must end in the
 // status, site, position and last-energised time the CSV files say.
 func TestRegisterAcceptsTheDemoFleet(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("loads about fifteen hundred rows into two stores")
 	}

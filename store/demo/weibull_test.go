@@ -56,6 +56,7 @@ func componentLives(s *Scenario, model string, kind health.ComponentKind, mode h
 // three failures) per main model and failure mode, and that the fits are
 // finite.
 func TestWeibullFitsPerModelAndMode(t *testing.T) {
+	t.Parallel()
 	s := demoScenario()
 	mains := s.MainModels()
 	if len(mains) < 2 {
