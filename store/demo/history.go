@@ -460,10 +460,13 @@ func (m *sim) nextEvent(d *simDrive) (time.Time, int) {
 			best, kind = h, k
 		}
 	}
-	failing := !d.noFail
-	if failing && p.isPlanted && !d.since.Before(m.protect) {
-		failing = false
+	// No unit fails in the last three days (its swap would not be done by
+	// Now), nor at a planted position in the last 400 days.
+	cutoff := m.s.Now.Add(-72 * time.Hour)
+	if p.isPlanted {
+		cutoff = m.protect
 	}
+	failing := !d.noFail && d.since.Before(cutoff)
 	if failing {
 		consider((d.capTau-d.capEq)/capStress(p), evCapFail)
 		consider((d.capTheta-d.capD)/p.prof.capPerH, evCapFail)
@@ -479,9 +482,9 @@ func (m *sim) nextEvent(d *simDrive) (time.Time, int) {
 	if math.IsInf(best, 1) {
 		at = m.s.Now.Add(24 * time.Hour)
 	}
-	// A failure the protection window would hide is pushed past it.
-	if failing && p.isPlanted && !at.Before(m.protect) {
-		at, kind = m.protect, evNone
+	// A failure the cutoff would hide is pushed past it.
+	if failing && !at.Before(cutoff) {
+		at, kind = cutoff, evNone
 	}
 	planned := func(due time.Time, k int) {
 		if !due.IsZero() && due.Before(at) {
@@ -917,11 +920,11 @@ func (m *sim) trips(day, end time.Time) {
 // tripIfRunning writes a trip when a healthy unit stands at p at that time.
 func (m *sim) tripIfRunning(p *posPlan, at time.Time, cause health.TripCause, state health.OperatingState, note string, decel bool) {
 	d := m.atPos[p.idx]
-	if d == nil || at.After(m.s.Now) || at.Before(d.since.Add(-24*time.Hour)) || !d.fanRepairAt.IsZero() {
-		return
+	if d == nil || at.After(m.s.Now) || !d.fanRepairAt.IsZero() {
+		return // no unit there, or one already stopped by a failed fan
 	}
 	if in := m.s.Installations[d.instRow].InstalledAt; at.Before(in) {
-		return
+		return // the unit came later that day
 	}
 	m.trip(d, p, at, cause, state, note)
 	m.addStop(p, at, addHours(at, 0.7+2.3*m.rng.Float64()), decel)
@@ -1002,9 +1005,6 @@ func (m *sim) finish() {
 			// Back from repair long ago and never used: scrapped (the
 			// register can only say so at its last removal).
 			d.status = health.StatusRetired
-		}
-		if d.status == health.StatusInStores && d.available.After(s.Now) {
-			d.available = s.Now
 		}
 		if d.everInstalled && d.status != health.StatusInstalled {
 			// The last removal says where the unit ended up.

@@ -554,8 +554,10 @@ func (s *Scenario) lifeHours(p *posPlan) iter.Seq[lifeHour] {
 			}
 			stopped, decelTrip := false, false
 			for k := stopI; k < len(p.stops) && p.stops[k].from.Before(t); k++ {
-				stopped = true
-				decelTrip = decelTrip || p.stops[k].decel
+				if p.stops[k].to.After(from) {
+					stopped = true
+					decelTrip = decelTrip || p.stops[k].decel
+				}
 			}
 			o := g.step(h, stopped, decelTrip, hsF, airF)
 			if st == nil {
