@@ -1,6 +1,7 @@
 package csvio
 
 import (
+	"encoding/json"
 	"fmt"
 	"math"
 	"reflect"
@@ -26,6 +27,9 @@ const (
 	cellTime
 	// cellCarrier is a carrier derating table, "6:0.90;8:0.80" or "none".
 	cellCarrier
+	// cellParameters is a parameter override object in JSON, such as
+	// {"data_quality":{"silent_after_s":7200}}; empty for none.
+	cellParameters
 )
 
 // column is one CSV column of a kind.
@@ -66,12 +70,12 @@ func specOf(k Kind) (*spec, error) {
 	switch k {
 	case KindSites:
 		return newSpec(k, store.Site{}, nil, []string{"name"},
-			"name", "elevation_m", "time_zone", "ambient_min_c", "ambient_max_c", "notes"), nil
+			"name", "elevation_m", "time_zone", "ambient_min_c", "ambient_max_c", "parameters", "notes"), nil
 	case KindAreas:
 		return newSpec(k, store.Area{}, map[string]cellType{"site": word}, []string{"site", "name"},
 			"site", "name", "environment.location", "environment.sun", "environment.ambient_min_c", "environment.ambient_max_c",
 			"environment.water", "environment.dust", "environment.oil", "environment.condensation", "environment.salt_air",
-			"environment.corrosion", "environment.hazardous_classified", "notes"), nil
+			"environment.corrosion", "environment.hazardous_classified", "parameters", "notes"), nil
 	case KindModels:
 		return newSpec(k, store.DriveModel{}, nil, []string{"name"},
 			"name", "maker", "voltage_class_v", "supply_phases", "normal_duty_current_a", "normal_duty_power_kw",
@@ -83,7 +87,7 @@ func specOf(k Kind) (*spec, error) {
 			"capacitor.activation_energy_ev", "fan.l10_h", "fan.ref_temp_c", "fan.halving_interval_c", "fan.runs",
 			"enclosure.nema_type", "enclosure.ip_code", "conformal_coating", "drive_cost", "capacitor_kit_cost", "fan_kit_cost",
 			"labour_cost_per_h", "drive_labour_h", "capacitor_labour_h", "fan_labour_h", "lead_time_days", "spares_on_hand",
-			"notes"), nil
+			"parameters", "notes"), nil
 	case KindPositions:
 		return newSpec(k, store.Position{}, map[string]cellType{"site": word, "area": word}, []string{"site", "tag"},
 			"site", "area", "tag", "description", "mounting",
@@ -160,6 +164,7 @@ var (
 	timeType    = reflect.TypeOf(time.Time{})
 	timePtrType = reflect.TypeOf(&time.Time{})
 	carrierType = reflect.TypeOf([]store.CarrierPoint{})
+	paramsType  = reflect.TypeOf(store.Parameters{})
 )
 
 // typeOf maps a model field's Go type to a cell type.
@@ -171,6 +176,8 @@ func typeOf(t reflect.Type, name string) (cellType, bool) {
 		return cellTime, true
 	case t == carrierType:
 		return cellCarrier, false
+	case t == paramsType:
+		return cellParameters, false
 	}
 	switch t.Kind() {
 	case reflect.String:
@@ -223,6 +230,12 @@ func parseCell(t cellType, s string) (any, error) {
 		return v.UTC().Truncate(time.Microsecond), nil
 	case cellCarrier:
 		return parseCarrier(s)
+	case cellParameters:
+		var p store.Parameters
+		if err := json.Unmarshal([]byte(s), &p); err != nil || p == nil {
+			return nil, fmt.Errorf(`must be a JSON object such as {"data_quality":{"silent_after_s":7200}}, not %q`, s)
+		}
+		return p, nil
 	}
 	return nil, fmt.Errorf("unknown cell type %d", t)
 }
@@ -278,6 +291,12 @@ func formatCell(v any) string {
 			return ""
 		}
 		return x.UTC().Format(time.RFC3339Nano)
+	case store.Parameters:
+		if len(x) == 0 {
+			return ""
+		}
+		b, _ := json.Marshal(x)
+		return string(b)
 	case []store.CarrierPoint:
 		if len(x) == 0 {
 			return "none"
@@ -332,6 +351,8 @@ func setModel(v any, c column, val any) {
 			f.Set(reflect.ValueOf(x))
 		}
 	case []store.CarrierPoint:
+		f.Set(reflect.ValueOf(x))
+	case store.Parameters:
 		f.Set(reflect.ValueOf(x))
 	}
 }

@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"compress/gzip"
 	"encoding/csv"
+	"encoding/json"
 	"fmt"
 	"io"
 	"math"
@@ -269,6 +270,12 @@ func formatValue(v reflect.Value) string {
 		return formatTime(x)
 	case *time.Time:
 		return formatTimePtr(x)
+	case store.Parameters:
+		if len(x) == 0 {
+			return "" // no overrides: the defaults apply
+		}
+		b, _ := json.Marshal(x)
+		return string(b)
 	case []store.CarrierPoint:
 		parts := make([]string, len(x))
 		for i, p := range x {
