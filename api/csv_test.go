@@ -68,7 +68,7 @@ func TestCSVImportAndExport(t *testing.T) {
 		if a.status != http.StatusOK || !strings.HasPrefix(a.header.Get("Content-Type"), "text/csv") {
 			t.Fatalf("export: %d %s %s", a.status, a.header.Get("Content-Type"), a.body)
 		}
-		want := "name,elevation_m,time_zone,ambient_min_c,ambient_max_c,notes\nHill Works,900,UTC,-2,38,\nRiver Intake,12,UTC,4,41,\n"
+		want := "name,elevation_m,time_zone,ambient_min_c,ambient_max_c,parameters,notes\nHill Works,900,UTC,-2,38,,\nRiver Intake,12,UTC,4,41,,\n"
 		if string(a.body) != want {
 			t.Errorf("export body:\n%s\nwant:\n%s", a.body, want)
 		}

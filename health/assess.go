@@ -73,6 +73,10 @@ type DriveInput struct {
 	// AccumulateFan, AddStoredCapacitorPeriod).
 	CapacitorState CapacitorState
 	FanState       FanState
+	// CapacitorUnobserved and FanUnobserved are installed service that no
+	// reading covers (LifeReport.WithUnobserved).
+	CapacitorUnobserved Unobserved
+	FanUnobserved       Unobserved
 
 	// Window holds the trailing readings for the window checks (duty,
 	// DC bus, heatsink trend, data quality, measured capacitance). Nil
@@ -89,6 +93,13 @@ type DriveInput struct {
 	Suppressed []string
 
 	Params DriveParams
+}
+
+// Unobserved is installed service time no reading covers, and the damage
+// rate to charge it at when no rate has been observed.
+type Unobserved struct {
+	Hours            float64 `json:"hours"`
+	FallbackRatePerH float64 `json:"fallback_rate_per_h"`
 }
 
 // DriveAssessment is the health of one drive at one time.
@@ -141,6 +152,7 @@ func AssessDrive(in DriveInput) (DriveAssessment, error) {
 	if err != nil {
 		return out, err
 	}
+	capLife.LifeReport = capLife.LifeReport.WithUnobserved(in.CapacitorUnobserved.Hours, in.CapacitorUnobserved.FallbackRatePerH)
 	out.Capacitor = capLife
 	out.Measured = in.Measured
 	if window {
@@ -165,6 +177,7 @@ func AssessDrive(in DriveInput) (DriveAssessment, error) {
 	if err != nil {
 		return out, err
 	}
+	fanLife.LifeReport = fanLife.LifeReport.WithUnobserved(in.FanUnobserved.Hours, in.FanUnobserved.FallbackRatePerH)
 	out.Fan = fanLife
 	found = append(found, FanFindings(p.Fan, fanLife, in.At)...)
 	evaluated = append(evaluated, rulesOf(checkFan)...)
@@ -293,7 +306,23 @@ func assessPosition(out *DriveAssessment, in DriveInput, pos *PositionInput) ([]
 	out.DCBus = &bus
 	found = append(found, bus.Findings...)
 
-	hs, err := HeatsinkTrend(in.Window, in.Ratings.Rated(app.Duty).RatedA, in.At, p.Heatsink)
+	// The heatsink is judged against the air around the drive: inside a
+	// cabinet that is the cabinet air (logged, or the cabinet model's
+	// estimate), which an air-conditioned cabinet holds at its set point
+	// whatever the room does.
+	hsWindow := in.Window
+	if pos.Cabinet != nil {
+		cm, err := NewCabinetModel(*pos.Cabinet, in.Ratings, app.Duty, p.Cabinet)
+		if err != nil {
+			return nil, nil, fmt.Errorf("heatsink: %w", err)
+		}
+		hsWindow = make([]Sample, len(in.Window))
+		for i, s := range in.Window {
+			s.AmbientC = cm.AirAtDriveC(s)
+			hsWindow[i] = s
+		}
+	}
+	hs, err := HeatsinkTrend(hsWindow, in.Ratings.Rated(app.Duty).RatedA, in.At, p.Heatsink)
 	if err != nil {
 		return nil, nil, fmt.Errorf("heatsink: %w", err)
 	}

@@ -197,3 +197,27 @@ func TestAssessDriveFindsPlantedFaults(t *testing.T) {
 		})
 	}
 }
+
+func TestWithUnobserved(t *testing.T) {
+	// Palmgren–Miner with the unseen service charged at the observed rate
+	// (DESIGN.md section 3): D = 0.1 + 10 000 h × 1e-5 /h = 0.2, and the
+	// remaining life from the last reading is (1 − 0.2) / 1e-5 = 80 000 h.
+	r := LifeReport{LifeUsedFraction: 0.1, LifeUsedAtAssessmentFraction: 0.1, DamageRatePerH: 1e-5, LastAt: 1_000_000}
+	got := r.WithUnobserved(10000, 1)
+	if math.Abs(got.LifeUsedFraction-0.2) > 1e-12 || math.Abs(got.RemainingH-80000) > 1e-6 || got.UnobservedRatePerH != 1e-5 {
+		t.Errorf("with unobserved: %+v", got)
+	}
+	if got.EndOfLifeAt != 1_000_000+80000*3600 {
+		t.Errorf("end of life at %d", got.EndOfLifeAt)
+	}
+	// No observed rate: the fallback rate is used.
+	none := LifeReport{LastAt: 100}.WithUnobserved(1000, 2e-4)
+	if math.Abs(none.LifeUsedFraction-0.2) > 1e-12 || none.UnobservedRatePerH != 2e-4 {
+		t.Errorf("fallback: %+v", none)
+	}
+	// Past the end: reached (1.5 − 1)/1e-4 = 5000 h before the last reading.
+	past := LifeReport{LifeUsedFraction: 0.5, LifeUsedAtAssessmentFraction: 0.5, DamageRatePerH: 1e-4, LastAt: 36_000_000}.WithUnobserved(10000, 0)
+	if !past.EndReached || past.EndReachedAt != 36_000_000-5000*3600 || past.RemainingH != 0 {
+		t.Errorf("past the end: %+v", past)
+	}
+}

@@ -581,6 +581,12 @@ type LifeReport struct {
 	Gaps           int64           `json:"gaps"`
 	GapH           float64         `json:"gap_h"`
 	Air            AirSourceCounts `json:"air"`
+	// UnobservedH is installed service before the first reading, charged
+	// at UnobservedRatePerH (WithUnobserved); UnobservedDamage is the part
+	// of LifeUsedFraction it adds.
+	UnobservedH        float64 `json:"unobserved_h"`
+	UnobservedRatePerH float64 `json:"unobserved_rate_per_h"`
+	UnobservedDamage   float64 `json:"unobserved_damage"`
 }
 
 // project computes the life report of a ledger at the assessment time at
@@ -1014,4 +1020,74 @@ func (tab *exp2Table) exp2(x float64) float64 {
 	p := (1 + t) + t2*(1.0/2+t*(1.0/6)) + (t2*t2)*(1.0/24+t*(1.0/120))
 	k := int64(kf)
 	return tab[k&63] * p * math.Float64frombits(uint64(k>>6+1023)<<52)
+}
+
+// WithUnobserved charges installed service that no reading covers (the
+// years a component served before the drive was connected) to the report:
+//
+//	D_unobserved = hours × r
+//
+// with r the trailing-window damage rate of the readings, so the unseen
+// years are assumed to have been like the observed year, or fallbackRatePerH
+// (the caller passes the rate at the conservative fill temperature) when no
+// rate has been observed yet. Life used, the remaining hours (1 - D)/r from
+// the last reading, the projected end of life and its band are recomputed
+// with the added damage; when the total reaches 1 the end is taken as
+// reached (D - 1)/r hours before the last reading (Palmgren–Miner; the
+// remaining-life convention of DESIGN.md section 3). Valid when the
+// unobserved service resembled the observed one; the assumption is
+// reported with the figures.
+func (r LifeReport) WithUnobserved(hours, fallbackRatePerH float64) LifeReport {
+	if !(hours > 0) {
+		return r
+	}
+	rate := r.DamageRatePerH
+	if !(rate > 0) {
+		rate = fallbackRatePerH
+	}
+	if !(rate > 0) {
+		return r
+	}
+	extra := hours * rate
+	r.UnobservedH, r.UnobservedRatePerH, r.UnobservedDamage = hours, rate, extra
+	r.LifeUsedFraction += extra
+	r.LifeUsedAtAssessmentFraction += extra
+	if r.EndReached {
+		return r
+	}
+	if r.LifeUsedFraction >= 1 {
+		back := (r.LifeUsedFraction - 1) / rate
+		r.EndReached, r.Projected = true, true
+		r.EndReachedAt = r.LastAt - int64(math.Round(back*lifeSecondsPerHour))
+		r.RemainingH, r.RemainingAtPresentH = 0, 0
+		r.EndOfLifeAt, r.EndOfLifeEarliestAt, r.EndOfLifeLatestAt = r.EndReachedAt, r.EndReachedAt, r.EndReachedAt
+		return r
+	}
+	left := 1 - r.LifeUsedFraction
+	r.Projected, r.EndOfLifeAt, r.EndOfLifeEarliestAt, r.EndOfLifeLatestAt = false, 0, 0, 0
+	r.RemainingH = math.Inf(1)
+	if tr := r.DamageRatePerH; tr > 0 {
+		fromLast := left / tr
+		r.RemainingH = math.Max(0, fromLast-r.HoursSinceLast)
+		if fromLast <= lifeMaxProjectionH {
+			r.Projected = true
+			r.EndOfLifeAt = r.LastAt + int64(math.Round(fromLast*lifeSecondsPerHour))
+			r.EndOfLifeEarliestAt, r.EndOfLifeLatestAt = r.EndOfLifeAt, r.EndOfLifeAt
+		}
+	}
+	if pr := r.PresentDamageRatePerH; pr > 0 {
+		r.RemainingAtPresentH = math.Max(0, (1-r.LifeUsedAtAssessmentFraction)/pr)
+	}
+	if r.Projected && len(r.BlockRatesPerH) >= 2 {
+		lo, hi := r.BlockRatesPerH[0], r.BlockRatesPerH[0]
+		for _, b := range r.BlockRatesPerH[1:] {
+			lo, hi = math.Min(lo, b), math.Max(hi, b)
+		}
+		r.EndOfLifeEarliestAt = r.LastAt + int64(math.Round(left/hi*lifeSecondsPerHour))
+		r.EndOfLifeLatestAt = 0
+		if lo > 0 && left/lo <= lifeMaxProjectionH {
+			r.EndOfLifeLatestAt = r.LastAt + int64(math.Round(left/lo*lifeSecondsPerHour))
+		}
+	}
+	return r
 }

@@ -325,6 +325,7 @@ func (a *Assessor) plan(c *store.AssessContext, at time.Time, full bool) (*drive
 
 	st := c.State
 	pl.full = full || st == nil || c.RecomputeFrom != nil || st.ParamsHash != pl.hash ||
+		(c.Drive.PositionID != nil && st.CapacitorState.Samples == 0) ||
 		!slices.Equal(ptrSlice(st.CapacitorComponentID), ptrSlice(capID)) || !slices.Equal(ptrSlice(st.FanComponentID), ptrSlice(fanID))
 	pl.trend = pl.full || st.TrendAt == nil || at.Sub(*st.TrendAt) >= a.cfg.TrendEvery
 	if c.Drive.PositionID == nil {
@@ -379,16 +380,19 @@ func (a *Assessor) finish(pl *drivePlan, rs []reading, at time.Time) (store.Asse
 		err   error
 	)
 	prev := c.State
+	var unobs [2]float64
 	if pl.full {
-		capSt, fanSt, err = a.replay(pl, rs, at)
+		capSt, fanSt, unobs, err = a.replay(pl, rs, at)
 	} else {
 		capSt, fanSt, err = a.advance(pl, rs, at)
+		unobs = [2]float64{prev.UnobservedCapacitorH, prev.UnobservedFanH}
 	}
 	if err != nil {
 		return res, err
 	}
 
-	state := store.DriveState{CapacitorState: capSt, FanState: fanSt, ParamsHash: pl.hash}
+	state := store.DriveState{CapacitorState: capSt, FanState: fanSt, ParamsHash: pl.hash,
+		UnobservedCapacitorH: unobs[0], UnobservedFanH: unobs[1]}
 	if c.Capacitor != nil {
 		state.CapacitorComponentID = &c.Capacitor.ID
 	}
@@ -401,6 +405,13 @@ func (a *Assessor) finish(pl *drivePlan, rs []reading, at time.Time) (store.Asse
 
 	in := health.DriveInput{At: at.Unix(), Ratings: pl.ratings, Capacitor: pl.capSpec, Fan: pl.fanSpec,
 		CapacitorState: capSt, FanState: fanSt, Measured: state.Measured, Params: p}
+	if fill, ok := pl.lastFillC(); ok {
+		// With no reading yet, unseen service is charged at the
+		// conservative fill: design-point air, full rated ripple.
+		in.CapacitorUnobserved = health.Unobserved{Hours: unobs[0],
+			FallbackRatePerH: 1 / pl.capSpec.LifeH(pl.capSpec.CoreTempC(fill, pl.capSpec.RippleRefCurrentA))}
+		in.FanUnobserved = health.Unobserved{Hours: unobs[1], FallbackRatePerH: 1 / pl.fanSpec.LifeH(fill)}
+	}
 	if c.Capacitor != nil {
 		in.CapacitorInitial = health.CapacitorInitial{CapacitanceUF: nanIfZero(c.Capacitor.InitialCapacitanceUF),
 			ESRMilliohm: nanIfZero(c.Capacitor.InitialESRMilliohm)}
@@ -474,6 +485,17 @@ func (a *Assessor) finish(pl *drivePlan, rs []reading, at time.Time) (store.Asse
 	return res, nil
 }
 
+// lastFillC is the fill temperature of the position the drive stood at
+// last, if it ever stood at one.
+func (pl *drivePlan) lastFillC() (float64, bool) {
+	ins := pl.c.Installations
+	if len(ins) == 0 {
+		return 0, false
+	}
+	ps, ok := pl.positions[ins[len(ins)-1].PositionID]
+	return ps.fillC, ok
+}
+
 // currentSince is when the drive came to its current position.
 func currentSince(c *store.AssessContext) time.Time {
 	for i := len(c.Installations) - 1; i >= 0; i-- {
@@ -502,14 +524,17 @@ func ledgerFrom(t time.Time) health.LifeLedger {
 // periods age the capacitors at the storage temperature (the fan stands
 // still), installed periods take the readings of that position, and the
 // unobserved end of an installation is filled as a gap.
-func (a *Assessor) replay(pl *drivePlan, rs []reading, at time.Time) (health.CapacitorState, health.FanState, error) {
+func (a *Assessor) replay(pl *drivePlan, rs []reading, at time.Time) (health.CapacitorState, health.FanState, [2]float64, error) {
 	c := pl.c
 	p := pl.params
 	capSt := health.CapacitorState{LifeLedger: ledgerFrom(pl.capStart)}
 	fanSt := health.FanState{LifeLedger: ledgerFrom(pl.fanStart)}
 	var err error
 	capOps := ledgerOps{
-		last: func() int64 { return capSt.LastAt },
+		last:    func() int64 { return capSt.LastAt },
+		seen:    func() bool { return capSt.Samples > 0 },
+		restart: func() { capSt.HasLast = false },
+		skip:    func(to int64) { capSt.HasLast, capSt.LastAt = true, max(capSt.LastAt, to) },
 		stored: func(from, to int64) error {
 			capSt, err = health.AddStoredCapacitorPeriod(pl.capSpec, capSt, from, to, pl.storageC)
 			return err
@@ -522,7 +547,10 @@ func (a *Assessor) replay(pl *drivePlan, rs []reading, at time.Time) (health.Cap
 		},
 	}
 	fanOps := ledgerOps{
-		last: func() int64 { return fanSt.LastAt },
+		last:    func() int64 { return fanSt.LastAt },
+		seen:    func() bool { return fanSt.Samples > 0 },
+		restart: func() { fanSt.HasLast = false },
+		skip:    func(to int64) { fanSt.HasLast, fanSt.LastAt = true, max(fanSt.LastAt, to) },
 		stored: func(from, to int64) error {
 			fanSt.LastAt = max(fanSt.LastAt, to) // a stored fan stands still
 			return nil
@@ -534,13 +562,14 @@ func (a *Assessor) replay(pl *drivePlan, rs []reading, at time.Time) (health.Cap
 			return err
 		},
 	}
-	if err := walk(c, pl, rs, at, pl.capStart.Unix(), capOps); err != nil {
-		return capSt, fanSt, fmt.Errorf("capacitor life: %w", err)
+	var unobs [2]float64
+	if unobs[0], err = walk(c, pl, rs, at, pl.capStart.Unix(), capOps); err != nil {
+		return capSt, fanSt, unobs, fmt.Errorf("capacitor life: %w", err)
 	}
-	if err := walk(c, pl, rs, at, pl.fanStart.Unix(), fanOps); err != nil {
-		return capSt, fanSt, fmt.Errorf("fan life: %w", err)
+	if unobs[1], err = walk(c, pl, rs, at, pl.fanStart.Unix(), fanOps); err != nil {
+		return capSt, fanSt, unobs, fmt.Errorf("fan life: %w", err)
 	}
-	return capSt, fanSt, nil
+	return capSt, fanSt, unobs, nil
 }
 
 // ledgerOps are the steps walk takes on one ledger.
@@ -548,12 +577,24 @@ type ledgerOps struct {
 	last       func() int64
 	stored     func(from, to int64) error
 	accumulate func(ps positionSetup, samples []health.Sample) error
+	// seen reports whether the ledger has taken a reading; restart makes
+	// the next reading start the clock; skip moves the clock on without
+	// ageing the part.
+	seen    func() bool
+	restart func()
+	skip    func(to int64)
 }
 
 // walk replays one ledger from start to at through the drive's
-// installation history.
-func walk(c *store.AssessContext, pl *drivePlan, rs []reading, at time.Time, start int64, ops ledgerOps) error {
+// installation history and returns the installed hours no reading covers
+// before the ledger's first reading. Those are charged later at the
+// observed rate (health.LifeReport.WithUnobserved); after the first
+// reading, a long interval without readings is a gap, filled
+// conservatively by the models.
+func walk(c *store.AssessContext, pl *drivePlan, rs []reading, at time.Time, start int64, ops ledgerOps) (float64, error) {
+	maxGapS := pl.params.Capacitor.Interval.MaxGapS
 	cursor := start
+	unobserved := 0.0
 	i := 0
 	for i < len(rs) && rs[i].sample.At <= start {
 		i++
@@ -571,7 +612,7 @@ func walk(c *store.AssessContext, pl *drivePlan, rs []reading, at time.Time, sta
 		}
 		if from > cursor {
 			if err := ops.stored(cursor, from); err != nil {
-				return err
+				return 0, err
 			}
 			cursor = from
 		}
@@ -579,13 +620,29 @@ func walk(c *store.AssessContext, pl *drivePlan, rs []reading, at time.Time, sta
 		for j < len(rs) && rs[j].sample.At <= to {
 			j++
 		}
+		end := min(to, now)
+		if !ops.seen() {
+			// Installed service before the ledger's first reading: a
+			// lead-in no longer than the gap limit is an ordinary
+			// interval; anything longer is unobserved history.
+			switch {
+			case j == i:
+				unobserved += float64(max(end-cursor, 0)) / 3600
+				ops.skip(end)
+			case rs[i].sample.At-cursor > maxGapS:
+				unobserved += float64(rs[i].sample.At-cursor) / 3600
+				ops.restart()
+			default:
+				ops.skip(cursor)
+			}
+		}
 		if j > i {
 			samples := make([]health.Sample, j-i)
 			for k := range samples {
 				samples[k] = rs[i+k].sample
 			}
 			if err := ops.accumulate(pl.positions[in.PositionID], samples); err != nil {
-				return err
+				return 0, err
 			}
 		}
 		i = j
@@ -594,18 +651,18 @@ func walk(c *store.AssessContext, pl *drivePlan, rs []reading, at time.Time, sta
 			cursor = now
 			break
 		}
-		if ops.last() < to {
+		if ops.seen() && ops.last() < to {
 			// Installed but unobserved until removal: fill it.
 			if err := ops.accumulate(pl.positions[in.PositionID], []health.Sample{blankSample(to)}); err != nil {
-				return err
+				return 0, err
 			}
 		}
 		cursor = to
 	}
 	if !installedNow && cursor < now {
-		return ops.stored(cursor, now)
+		return unobserved, ops.stored(cursor, now)
 	}
-	return nil
+	return unobserved, nil
 }
 
 // advance moves both ledgers on by the new readings only (an installed

@@ -30,8 +30,12 @@ type DriveState struct {
 	// StoredTo is how far a stored drive's shelf ageing has been added.
 	StoredTo *time.Time
 	// TrendAt is the last window pass (duty, DC bus, heatsink, data quality).
-	TrendAt   *time.Time
-	UpdatedAt time.Time
+	TrendAt *time.Time
+	// UnobservedCapacitorH and UnobservedFanH are installed hours before
+	// each ledger's first reading, charged at the observed rate.
+	UnobservedCapacitorH float64
+	UnobservedFanH       float64
+	UpdatedAt            time.Time
 }
 
 // TableName names the table.

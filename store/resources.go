@@ -146,7 +146,7 @@ var (
 	driveInfo = &ResourceInfo{
 		Name: "drives", Table: "drives",
 		Create: []string{"serial", "model_id", "site_id", "status", "stores_area_id", "manufactured_at", "last_energised_at", "notes"},
-		Patch:  []string{"serial", "model_id", "status", "stores_area_id", "manufactured_at", "last_energised_at", "notes"},
+		Patch:  []string{"serial", "model_id", "site_id", "status", "stores_area_id", "manufactured_at", "last_energised_at", "notes"},
 		Filters: []Filter{
 			{Param: "site_id", Column: "site_id", Kind: FilterID},
 			{Param: "model_id", Column: "model_id", Kind: FilterID},
@@ -511,6 +511,12 @@ func (r *Drive) validate(ctx context.Context, tx *gorm.DB) error {
 	}
 	if r.PositionID != nil && r.Status != health.StatusInstalled {
 		fe.add("status", "the drive stands at position %d: remove it first (POST /api/v1/drives/{id}/installations with position_id null)", *r.PositionID)
+	}
+	if r.PositionID != nil {
+		var p Position
+		if err := tx.Select("site_id").Where("id = ?", *r.PositionID).Take(&p).Error; err == nil && p.SiteID != r.SiteID {
+			fe.add("site_id", "the drive stands at position %d of site %d: a drive changes site while installed only by a move", *r.PositionID, p.SiteID)
+		}
 	}
 	if r.StoresAreaID != nil {
 		refCheck(ctx, tx, &fe, "stores_area_id", "areas", "site_id", *r.StoresAreaID)

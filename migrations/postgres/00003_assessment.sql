@@ -13,6 +13,8 @@ CREATE TABLE drive_state (
     params_hash             text NOT NULL,
     stored_to               timestamptz,
     trend_at                timestamptz,
+    unobserved_capacitor_h  double precision NOT NULL DEFAULT 0,
+    unobserved_fan_h        double precision NOT NULL DEFAULT 0,
     updated_at              timestamptz NOT NULL
 );
 

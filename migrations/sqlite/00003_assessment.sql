@@ -13,6 +13,8 @@ CREATE TABLE drive_state (
     params_hash             text NOT NULL,
     stored_to               DATETIME,
     trend_at                DATETIME,
+    unobserved_capacitor_h  REAL NOT NULL DEFAULT 0,
+    unobserved_fan_h        REAL NOT NULL DEFAULT 0,
     updated_at              DATETIME NOT NULL
 );
 

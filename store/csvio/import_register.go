@@ -172,11 +172,11 @@ func (im *importer) drive(tx *store.Tx, r *row) (outcome, error) {
 	// status to the installations file.
 	skip := func(col string) bool { return col == "status" && r.str("status") == string(health.StatusInstalled) }
 	return upsert(im, tx, r, ex, skip, func(v *store.Drive, creating bool) error {
-		switch {
-		case creating:
+		if creating || siteID != 0 {
+			// A drive out of service may be sent to another site's
+			// stores; the store refuses a site change while it stands at
+			// a position.
 			v.SiteID = siteID
-		case siteID != 0 && siteID != v.SiteID:
-			return store.Invalid("site", "cannot change: a drive changes site only by an installation at a position of the new site")
 		}
 		if modelID != 0 {
 			v.ModelID = modelID

@@ -171,12 +171,14 @@ func TestUpsertChangesOnlyGivenColumns(t *testing.T) {
 		if hill.Notes != "Moved the office" || hill.ElevationM != 900 || hill.AmbientMinC != -2 {
 			t.Errorf("Hill Works after a notes-only import: %+v", hill)
 		}
-		// A drive: model changes through PATCH rules; site cannot.
-		res, err := Import(context.Background(), s, KindDrives, strings.NewReader("serial,model,site\nSN-3001,VX-45,Stores Depot\nSN-1001,,Hill Works\n"), Options{Partial: true})
+		// A drive: model changes through PATCH rules; a drive out of
+		// service may go to another site's stores (SN-1001 is in repair),
+		// an installed one (SN-1002) changes site only by a move.
+		res, err := Import(context.Background(), s, KindDrives, strings.NewReader("serial,model,site\nSN-3001,VX-45,Stores Depot\nSN-1001,,Hill Works\nSN-1002,,Hill Works\n"), Options{Partial: true})
 		if err != nil {
 			t.Fatal(err)
 		}
-		if res.Updated != 1 || res.Rejected != 1 || !slices.Equal(lines(res.Errors), []string{"3:site"}) {
+		if res.Updated != 2 || res.Rejected != 1 || !slices.Equal(lines(res.Errors), []string{"4:site"}) {
 			t.Errorf("drive upsert: %+v", res)
 		}
 		if d := get[store.Drive](t, s, map[string]string{"serial": "SN-3001"}); d.ModelID != get[store.DriveModel](t, s, map[string]string{"name": "VX-45"}).ID {

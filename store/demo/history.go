@@ -314,6 +314,10 @@ func (m *sim) initialFleet() {
 		d.since = at
 		if p.plantHotKiosk {
 			d.noFail, d.noCapPM = true, true
+			// The planted unit runs exactly as the position's profile, so
+			// the life the readings show matches the arithmetic in
+			// plantKioskInstall.
+			d.hsF, d.airF = 1, 1
 		}
 		m.install(d, p, at)
 		// Age the unit to HistoryStart: the parts it has had replaced by

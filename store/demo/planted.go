@@ -71,7 +71,9 @@ const kioskLifeUsedTarget = 0.94
 // Installed 0.94 / 0.080 ≈ 11.7 years before Now, it has used about 0.94,
 // and at the trailing year's rate the remaining 0.06 lasts about
 // 0.06 / 0.080 ≈ 0.75 year, some 275 days: inside the 365-day horizon,
-// outside the 90-day one. The generator takes the rate from the position's
+// outside the 90-day one. The assessment sees only the reading year and
+// charges the years before it at that year's rate, so the planted unit
+// runs exactly as the profile (no unit-to-unit spread). The generator takes the rate from the position's
 // profile (the same year the readings carry) rather than these rounded
 // figures; the generated year gives life used 0.938 and 285 days, checked
 // from the readings by TestPlantedKioskCapacitors.
