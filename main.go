@@ -193,6 +193,7 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	webhook := fs.String("webhook-url", getenv("KELVARD_WEBHOOK_URL"), "URL that new critical findings are posted to (KELVARD_WEBHOOK_URL)")
 	webhookSecret := fs.String("webhook-secret", getenv("KELVARD_WEBHOOK_SECRET"), "key of the HMAC-SHA256 signature on webhook posts (KELVARD_WEBHOOK_SECRET)")
 	metricsToken := fs.Bool("metrics-token", envOr(getenv, "KELVARD_METRICS_TOKEN", "false") == "true", "require a bearer token on /metrics (KELVARD_METRICS_TOKEN=true)")
+	demoFleet := fs.Bool("demo", false, "load an invented demo fleet into an empty store, assess it, and print an admin token")
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -227,8 +228,19 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 		return err
 	}
 	defer jf.stop(sched, log) // before the store closes: waits for a running job
-	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies), MaxImportBytes: importLimit, Jobs: sched,
-		MetricsToken: *metricsToken, JobStats: jobStats(st)}, st, log)
+	cfg := api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies), MaxImportBytes: importLimit, Jobs: sched,
+		MetricsToken: *metricsToken, JobStats: jobStats(st)}
+	var demoToken string
+	if *demoFleet {
+		t, secret, err := st.CreateToken(ctx, store.NewToken{Name: "demo admin", Role: store.RoleAdmin})
+		if err != nil {
+			return err
+		}
+		demoToken = secret
+		log.Info("demo admin token made", slog.Int64("token", t.ID))
+		cfg.Ready = jobs.StartDemo(ctx, st, sched, time.Now(), log).Ready
+	}
+	srv, err := api.New(cfg, st, log)
 	if err != nil {
 		return err
 	}
@@ -246,6 +258,10 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	}
 	hs := srv.HTTPServer(*listen)
 	fmt.Fprintf(stdout, "kelvard %s serving on http://%s (%s store)\n", buildVersion(), displayAddr(ln.Addr()), st.Dialect())
+	if demoToken != "" {
+		fmt.Fprintf(stdout, "demo fleet: loading and assessing in the background; /readyz turns ready when done\n")
+		fmt.Fprintf(stdout, "admin token (shown once): %s\n", demoToken)
+	}
 	errc := make(chan error, 1)
 	go func() { errc <- hs.Serve(ln) }()
 	select {
