@@ -193,9 +193,14 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	webhook := fs.String("webhook-url", getenv("KELVARD_WEBHOOK_URL"), "URL that new critical findings are posted to (KELVARD_WEBHOOK_URL)")
 	webhookSecret := fs.String("webhook-secret", getenv("KELVARD_WEBHOOK_SECRET"), "key of the HMAC-SHA256 signature on webhook posts (KELVARD_WEBHOOK_SECRET)")
 	metricsToken := fs.Bool("metrics-token", envOr(getenv, "KELVARD_METRICS_TOKEN", "false") == "true", "require a bearer token on /metrics (KELVARD_METRICS_TOKEN=true)")
+	rawRetention := fs.Duration("raw-retention", envDuration(getenv, "KELVARD_RAW_RETENTION", 400*24*time.Hour),
+		"how long raw readings are kept before they are rolled up into hourly aggregates; at least 100 days (KELVARD_RAW_RETENTION)")
 	demoFleet := fs.Bool("demo", false, "load an invented demo fleet into an empty store, assess it, and print an admin token")
 	if err := parse(fs, args); err != nil {
 		return err
+	}
+	if *rawRetention < 100*24*time.Hour {
+		return usageError{errors.New("--raw-retention must be at least 100 days (2400h): the assessment's window checks read 90 days of raw readings")}
 	}
 	if *webhook != "" && *webhookSecret == "" {
 		return usageError{errors.New("--webhook-url needs --webhook-secret (KELVARD_WEBHOOK_SECRET) so receivers can check posts")}
@@ -223,7 +228,10 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 		}
 	}
 	notifier := jobs.NewNotifier(st, *webhook, *webhookSecret, log)
-	sched, err := jf.build(st, log, jobsFor(st, log, notifier))
+	if err := st.PrepareReadingPartitions(ctx); err != nil {
+		return err
+	}
+	sched, err := jf.build(st, log, jobsFor(st, log, jobOptions{Notifier: notifier, RawRetention: *rawRetention}))
 	if err != nil {
 		return err
 	}
@@ -563,14 +571,23 @@ func byteLimit(name, s string) (int64, error) {
 
 // jobSource builds the jobs `serve` runs, over the opened store; n posts
 // new critical findings to the webhook (nil when none is configured).
-type jobSource func(st *store.Store, log *slog.Logger, n *jobs.Notifier) []jobs.Job
+type jobSource func(st *store.Store, log *slog.Logger, o jobOptions) []jobs.Job
+
+// jobOptions carries serve's settings for the jobs.
+type jobOptions struct {
+	// Notifier posts new critical findings (nil without a webhook).
+	Notifier *jobs.Notifier
+	// RawRetention is how long raw readings are kept before roll-up.
+	RawRetention time.Duration
+}
 
 // builtinJobs lists kelvard's jobs over the opened store. A job named in
 // jobs.DefaultSchedules takes that schedule unless its flag sets another;
 // any other job runs on request only.
-func builtinJobs(st *store.Store, log *slog.Logger, n *jobs.Notifier) []jobs.Job {
+func builtinJobs(st *store.Store, log *slog.Logger, o jobOptions) []jobs.Job {
 	return []jobs.Job{
-		jobs.AssessJob{Assessor: jobs.NewAssessor(st, jobs.AssessConfig{Log: log, Notify: n != nil}), Notifier: n},
+		jobs.AssessJob{Assessor: jobs.NewAssessor(st, jobs.AssessConfig{Log: log, Notify: o.Notifier != nil}), Notifier: o.Notifier},
+		jobs.NewRetentionJob(st, jobs.RetentionConfig{RawRetention: o.RawRetention, Log: log}),
 	}
 }
 

@@ -330,7 +330,7 @@ func TestServeWaitsForRunningJob(t *testing.T) {
 			done := make(chan error, 1)
 			go func() {
 				done <- cmdServe(ctx, []string{"--listen", "127.0.0.1:0"}, func(k string) string { return env[k] }, out, errOut,
-					func(*store.Store, *slog.Logger, *jobs.Notifier) []jobs.Job { return []jobs.Job{job} })
+					func(*store.Store, *slog.Logger, jobOptions) []jobs.Job { return []jobs.Job{job} })
 			}()
 			var base string
 			deadline := time.Now().Add(30 * time.Second)

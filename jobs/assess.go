@@ -219,6 +219,21 @@ func (a *Assessor) assessBatch(ctx context.Context, at time.Time, ids []int64, f
 			from = append(from, store.ScanFrom{DriveID: c.Drive.ID, After: pl.scanAfter})
 		}
 	}
+	// Drives replayed in full also need the hourly roll-ups of readings
+	// past the raw retention.
+	rolled := map[int64][]store.HourlyReading{}
+	var fullFrom []store.ScanFrom
+	for _, c := range ctxs {
+		if pl := plans[c.Drive.ID]; pl.full && c.Drive.Status != health.StatusRetired {
+			fullFrom = append(fullFrom, store.ScanFrom{DriveID: c.Drive.ID, After: minTime(pl.capStart, pl.fanStart)})
+		}
+	}
+	if err := a.store.ScanHourly(ctx, fullFrom, func(h store.HourlyReading) error {
+		rolled[h.DriveID] = append(rolled[h.DriveID], h)
+		return nil
+	}); err != nil {
+		return 0, 0, err
+	}
 	var (
 		results  []store.AssessResult
 		buf      []reading
@@ -230,7 +245,7 @@ func (a *Assessor) assessBatch(ctx context.Context, at time.Time, ids []int64, f
 		if curID == 0 {
 			return nil
 		}
-		res, err := a.finish(plans[curID], buf, at)
+		res, err := a.finish(plans[curID], buf, rolled[curID], at)
 		if err != nil {
 			return fmt.Errorf("drive %s: %w", plans[curID].c.Drive.Serial, err)
 		}
@@ -258,7 +273,7 @@ func (a *Assessor) assessBatch(ctx context.Context, at time.Time, ids []int64, f
 	}
 	for _, c := range ctxs {
 		if !finished[c.Drive.ID] {
-			res, err := a.finish(plans[c.Drive.ID], nil, at)
+			res, err := a.finish(plans[c.Drive.ID], nil, rolled[c.Drive.ID], at)
 			if err != nil {
 				return 0, 0, fmt.Errorf("drive %s: %w", c.Drive.Serial, err)
 			}
@@ -365,7 +380,7 @@ func minTime(a, b time.Time) time.Time {
 
 // finish advances the drive's ledgers with its readings, runs the models
 // and builds the result to save.
-func (a *Assessor) finish(pl *drivePlan, rs []reading, at time.Time) (store.AssessResult, error) {
+func (a *Assessor) finish(pl *drivePlan, rs []reading, hs []store.HourlyReading, at time.Time) (store.AssessResult, error) {
 	c := pl.c
 	res := store.AssessResult{DriveID: c.Drive.ID, SiteID: c.Drive.SiteID, Existing: c.Findings, RecomputeSeen: c.RecomputeFrom}
 	if c.Drive.Status == health.StatusRetired {
@@ -382,7 +397,7 @@ func (a *Assessor) finish(pl *drivePlan, rs []reading, at time.Time) (store.Asse
 	prev := c.State
 	var unobs [2]float64
 	if pl.full {
-		capSt, fanSt, unobs, err = a.replay(pl, rs, at)
+		capSt, fanSt, unobs, err = a.replay(pl, rs, hs, at)
 	} else {
 		capSt, fanSt, err = a.advance(pl, rs, at)
 		unobs = [2]float64{prev.UnobservedCapacitorH, prev.UnobservedFanH}
@@ -524,7 +539,7 @@ func ledgerFrom(t time.Time) health.LifeLedger {
 // periods age the capacitors at the storage temperature (the fan stands
 // still), installed periods take the readings of that position, and the
 // unobserved end of an installation is filled as a gap.
-func (a *Assessor) replay(pl *drivePlan, rs []reading, at time.Time) (health.CapacitorState, health.FanState, [2]float64, error) {
+func (a *Assessor) replay(pl *drivePlan, rs []reading, hs []store.HourlyReading, at time.Time) (health.CapacitorState, health.FanState, [2]float64, error) {
 	c := pl.c
 	p := pl.params
 	capSt := health.CapacitorState{LifeLedger: ledgerFrom(pl.capStart)}
@@ -545,6 +560,12 @@ func (a *Assessor) replay(pl *drivePlan, rs []reading, at time.Time) (health.Cap
 			capSt, _, err = health.AccumulateCapacitor(pl.capSpec, cp, capSt, samples, airOf(ps, samples))
 			return err
 		},
+		rolled: func(ps positionSetup, aggs []health.HourAggregate) error {
+			cp := p.Capacitor
+			cp.Interval.FillAirC = ps.fillC
+			capSt, _, err = health.AccumulateCapacitorAggregates(pl.capSpec, cp, capSt, aggs)
+			return err
+		},
 	}
 	fanOps := ledgerOps{
 		last:    func() int64 { return fanSt.LastAt },
@@ -561,12 +582,18 @@ func (a *Assessor) replay(pl *drivePlan, rs []reading, at time.Time) (health.Cap
 			fanSt, _, err = health.AccumulateFan(pl.fanSpec, fp, fanSt, samples, airOf(ps, samples))
 			return err
 		},
+		rolled: func(ps positionSetup, aggs []health.HourAggregate) error {
+			fp := p.Fan
+			fp.Interval.FillAirC = ps.fillC
+			fanSt, _, err = health.AccumulateFanAggregates(pl.fanSpec, fp, fanSt, aggs)
+			return err
+		},
 	}
 	var unobs [2]float64
-	if unobs[0], err = walk(c, pl, rs, at, pl.capStart.Unix(), capOps); err != nil {
+	if unobs[0], err = walk(c, pl, rs, hs, at, pl.capStart.Unix(), capOps); err != nil {
 		return capSt, fanSt, unobs, fmt.Errorf("capacitor life: %w", err)
 	}
-	if unobs[1], err = walk(c, pl, rs, at, pl.fanStart.Unix(), fanOps); err != nil {
+	if unobs[1], err = walk(c, pl, rs, hs, at, pl.fanStart.Unix(), fanOps); err != nil {
 		return capSt, fanSt, unobs, fmt.Errorf("fan life: %w", err)
 	}
 	return capSt, fanSt, unobs, nil
@@ -577,6 +604,8 @@ type ledgerOps struct {
 	last       func() int64
 	stored     func(from, to int64) error
 	accumulate func(ps positionSetup, samples []health.Sample) error
+	// rolled takes hourly roll-ups of readings past the raw retention.
+	rolled func(ps positionSetup, aggs []health.HourAggregate) error
 	// seen reports whether the ledger has taken a reading; restart makes
 	// the next reading start the clock; skip moves the clock on without
 	// ageing the part.
@@ -591,13 +620,16 @@ type ledgerOps struct {
 // observed rate (health.LifeReport.WithUnobserved); after the first
 // reading, a long interval without readings is a gap, filled
 // conservatively by the models.
-func walk(c *store.AssessContext, pl *drivePlan, rs []reading, at time.Time, start int64, ops ledgerOps) (float64, error) {
+func walk(c *store.AssessContext, pl *drivePlan, rs []reading, hs []store.HourlyReading, at time.Time, start int64, ops ledgerOps) (float64, error) {
 	maxGapS := pl.params.Capacitor.Interval.MaxGapS
 	cursor := start
 	unobserved := 0.0
-	i := 0
+	i, ia := 0, 0
 	for i < len(rs) && rs[i].sample.At <= start {
 		i++
+	}
+	for ia < len(hs) && hs[ia].Agg.LastAt <= start {
+		ia++
 	}
 	now := at.Unix()
 	installedNow := false
@@ -620,22 +652,43 @@ func walk(c *store.AssessContext, pl *drivePlan, rs []reading, at time.Time, sta
 		for j < len(rs) && rs[j].sample.At <= to {
 			j++
 		}
+		ja := ia
+		for ja < len(hs) && hs[ja].Agg.LastAt <= to {
+			ja++
+		}
 		end := min(to, now)
 		if !ops.seen() {
 			// Installed service before the ledger's first reading: a
 			// lead-in no longer than the gap limit is an ordinary
 			// interval; anything longer is unobserved history.
+			first, has := int64(0), false
 			switch {
-			case j == i:
+			case ja > ia:
+				first, has = hs[ia].Agg.FirstAt, true
+			case j > i:
+				first, has = rs[i].sample.At, true
+			}
+			switch {
+			case !has:
 				unobserved += float64(max(end-cursor, 0)) / 3600
 				ops.skip(end)
-			case rs[i].sample.At-cursor > maxGapS:
-				unobserved += float64(rs[i].sample.At-cursor) / 3600
+			case first-cursor > maxGapS:
+				unobserved += float64(first-cursor) / 3600
 				ops.restart()
 			default:
 				ops.skip(cursor)
 			}
 		}
+		if ja > ia {
+			aggs := make([]health.HourAggregate, ja-ia)
+			for k := range aggs {
+				aggs[k] = hs[ia+k].Agg
+			}
+			if err := ops.rolled(pl.positions[in.PositionID], aggs); err != nil {
+				return 0, err
+			}
+		}
+		ia = ja
 		if j > i {
 			samples := make([]health.Sample, j-i)
 			for k := range samples {

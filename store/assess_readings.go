@@ -110,6 +110,8 @@ type ScanFrom struct {
 	DriveID int64
 	// After is exclusive: readings with at > After.
 	After time.Time
+	// Before, when set, is exclusive too: readings with at < Before.
+	Before time.Time
 }
 
 // ScanReadings streams the readings of several drives, each after its own
@@ -134,8 +136,12 @@ const readingColumns = "r.drive_id, r.position_id, r.at, r.internal_air_c, r.amb
 func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int64, int64, time.Time, health.Sample) error) error {
 	ids := make([]int64, len(from))
 	afters := make([]time.Time, len(from))
+	befores := make([]time.Time, len(from))
 	for i, f := range from {
-		ids[i], afters[i] = f.DriveID, f.After.UTC()
+		ids[i], afters[i], befores[i] = f.DriveID, f.After.UTC(), f.Before.UTC()
+		if f.Before.IsZero() {
+			befores[i] = time.Date(9999, 1, 1, 0, 0, 0, 0, time.UTC)
+		}
 	}
 	conn, err := s.sqlDB.Conn(ctx)
 	if err != nil {
@@ -145,9 +151,9 @@ func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int
 	return conn.Raw(func(dc any) error {
 		pc := dc.(*stdlib.Conn).Conn()
 		rows, err := pc.Query(ctx, "SELECT "+readingColumns+
-			" FROM unnest($1::bigint[], $2::timestamptz[]) AS w(drive_id, after_at)"+
-			" JOIN readings r ON r.drive_id = w.drive_id AND r.at > w.after_at ORDER BY r.drive_id, r.at",
-			ids, afters)
+			" FROM unnest($1::bigint[], $2::timestamptz[], $3::timestamptz[]) AS w(drive_id, after_at, before_at)"+
+			" JOIN readings r ON r.drive_id = w.drive_id AND r.at > w.after_at AND r.at < w.before_at ORDER BY r.drive_id, r.at",
+			ids, afters, befores)
 		if err != nil {
 			return fmt.Errorf("scan readings: %w", translate(err))
 		}
@@ -190,8 +196,12 @@ func pgFloats(v *[10]pgtype.Float8) [10]float64 {
 
 func (s *Store) scanReadingsSQLite(ctx context.Context, from []ScanFrom, fn func(int64, int64, time.Time, health.Sample) error) error {
 	for _, f := range from {
-		rows, err := s.sqlDB.QueryContext(ctx, "SELECT "+readingColumns+" FROM readings r WHERE r.drive_id = ? AND r.at > ? ORDER BY r.at",
-			f.DriveID, f.After.UnixMicro())
+		before := int64(math.MaxInt64)
+		if !f.Before.IsZero() {
+			before = f.Before.UnixMicro()
+		}
+		rows, err := s.sqlDB.QueryContext(ctx, "SELECT "+readingColumns+" FROM readings r WHERE r.drive_id = ? AND r.at > ? AND r.at < ? ORDER BY r.at",
+			f.DriveID, f.After.UnixMicro(), before)
 		if err != nil {
 			return fmt.Errorf("scan readings of drive %d: %w", f.DriveID, translate(err))
 		}
@@ -252,23 +262,7 @@ func (s *Store) advanceWatermark(tx *gorm.DB, r *AssessResult) error {
 	if r.AssessedTo == nil {
 		return nil
 	}
-	var seen any
-	if r.RecomputeSeen != nil {
-		seen = s.timeArg(*r.RecomputeSeen)
-	}
-	to := s.timeArg(*r.AssessedTo)
-	same := "drive_watermarks.recompute_from IS NOT DISTINCT FROM ?"
-	if s.dialect == SQLite {
-		same = "drive_watermarks.recompute_from IS ?"
-	}
-	err := tx.Exec(`INSERT INTO drive_watermarks (drive_id, assessed_to, recompute_from) VALUES (?, ?, NULL)
-		ON CONFLICT (drive_id) DO UPDATE SET assessed_to = excluded.assessed_to,
-		recompute_from = CASE WHEN `+same+` THEN NULL ELSE drive_watermarks.recompute_from END`,
-		r.DriveID, to, seen).Error
-	if err != nil {
-		return fmt.Errorf("advance watermark of drive %d: %w", r.DriveID, translate(err))
-	}
-	return nil
+	return s.advanceWatermarkTx(tx, r.DriveID, *r.AssessedTo, r.RecomputeSeen)
 }
 
 // markMissed sets the recompute mark when readings exist in the range the

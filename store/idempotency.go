@@ -57,7 +57,7 @@ func (s *Store) ClaimIdempotencyKey(ctx context.Context, tokenID int64, key stri
 	now := s.now()
 	for attempt := 0; attempt < 3; attempt++ {
 		res, err := s.sqlDB.ExecContext(ctx, s.rebind(`INSERT INTO idempotency_keys (token_id, key, request_hash, status, content_type, created_at)
-			VALUES (?, ?, ?, 0, '', ?) ON CONFLICT (token_id, key) DO NOTHING`), tokenID, key, requestHash, s.atArg(now))
+			VALUES (?, ?, ?, 0, '', ?) ON CONFLICT (token_id, key) DO NOTHING`), tokenID, key, requestHash, s.timeArg(now))
 		if err != nil {
 			return "", StoredAnswer{}, fmt.Errorf("claim idempotency key: %w", translate(err))
 		}
@@ -70,7 +70,7 @@ func (s *Store) ClaimIdempotencyKey(ctx context.Context, tokenID int64, key stri
 		// Take over an expired key or an abandoned claim.
 		res, err = s.sqlDB.ExecContext(ctx, s.rebind(`UPDATE idempotency_keys SET request_hash = ?, status = 0, content_type = '', body = NULL, created_at = ?
 			WHERE token_id = ? AND key = ? AND (created_at < ? OR (status = 0 AND created_at < ?))`),
-			requestHash, s.atArg(now), tokenID, key, s.atArg(now.Add(-IdempotencyTTL)), s.atArg(now.Add(-idempotencyStale)))
+			requestHash, s.timeArg(now), tokenID, key, s.timeArg(now.Add(-IdempotencyTTL)), s.timeArg(now.Add(-idempotencyStale)))
 		if err != nil {
 			return "", StoredAnswer{}, fmt.Errorf("claim idempotency key: %w", translate(err))
 		}
@@ -125,7 +125,7 @@ func (s *Store) ReleaseIdempotencyKey(ctx context.Context, tokenID int64, key st
 // PurgeIdempotencyKeys deletes keys older than IdempotencyTTL and reports
 // how many went. Claims call it; a retention job may too.
 func (s *Store) PurgeIdempotencyKeys(ctx context.Context) (int64, error) {
-	res, err := s.sqlDB.ExecContext(ctx, s.rebind(`DELETE FROM idempotency_keys WHERE created_at < ?`), s.atArg(s.now().Add(-IdempotencyTTL)))
+	res, err := s.sqlDB.ExecContext(ctx, s.rebind(`DELETE FROM idempotency_keys WHERE created_at < ?`), s.timeArg(s.now().Add(-IdempotencyTTL)))
 	if err != nil {
 		return 0, fmt.Errorf("purge idempotency keys: %w", translate(err))
 	}

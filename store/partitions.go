@@ -232,3 +232,10 @@ func (s *Store) ReadingPartitions(ctx context.Context) ([]time.Time, error) {
 	slices.SortFunc(out, func(a, b time.Time) int { return a.Compare(b) })
 	return out, nil
 }
+
+// forget drops a month from the cache after its partition was dropped.
+func (ps *partitionSet) forget(m int) {
+	ps.mu.Lock()
+	defer ps.mu.Unlock()
+	delete(ps.months, m)
+}

@@ -23,30 +23,6 @@ const (
 // scanChunk is how many readings ScanSamples reads per query.
 const scanChunk = 5000
 
-// atArg turns a reading time into the bound parameter of the store's
-// dialect: timestamptz on PostgreSQL, Unix microseconds on SQLite.
-func (s *Store) atArg(t time.Time) any {
-	if s.dialect == SQLite {
-		return t.UnixMicro()
-	}
-	return utc(t)
-}
-
-// atValue scans a reading time from either dialect.
-type atValue struct{ t time.Time }
-
-func (a *atValue) Scan(v any) error {
-	switch x := v.(type) {
-	case time.Time:
-		a.t = x.UTC()
-	case int64:
-		a.t = time.UnixMicro(x).UTC()
-	default:
-		return fmt.Errorf("reading time of type %T", v)
-	}
-	return nil
-}
-
 // rebind turns ? placeholders into $n on PostgreSQL. The queries it is
 // used on hold no ? inside literals.
 func (s *Store) rebind(q string) string {
@@ -96,15 +72,15 @@ func (s *Store) readingsWhere(driveID int64, from, to time.Time, after int64, ha
 	args := []any{driveID}
 	if !from.IsZero() {
 		where = append(where, "r.at >= ?")
-		args = append(args, s.atArg(from))
+		args = append(args, s.timeArg(from))
 	}
 	if !to.IsZero() {
 		where = append(where, "r.at < ?")
-		args = append(args, s.atArg(to))
+		args = append(args, s.timeArg(to))
 	}
 	if hasAfter {
 		where = append(where, "r.at > ?")
-		args = append(args, s.atArg(time.UnixMicro(after)))
+		args = append(args, s.timeArg(time.UnixMicro(after)))
 	}
 	return strings.Join(where, " AND "), args
 }
@@ -146,7 +122,7 @@ func (s *Store) Readings(ctx context.Context, driveID int64, from, to time.Time,
 	for rows.Next() {
 		var (
 			r  Reading
-			at atValue
+			at dbTime
 		)
 		dest := []any{&r.DriveID, &at, &r.PositionID}
 		for _, slot := range r.valueSlots() {
@@ -156,7 +132,7 @@ func (s *Store) Readings(ctx context.Context, driveID int64, from, to time.Time,
 		if err := rows.Scan(dest...); err != nil {
 			return Page[Reading]{}, fmt.Errorf("read readings of drive %d: %w", driveID, err)
 		}
-		r.At = at.t
+		r.At = at.T
 		items = append(items, r)
 	}
 	if err := rows.Err(); err != nil {
@@ -190,7 +166,7 @@ func (s *Store) ScanSamples(ctx context.Context, driveID int64, from, to time.Ti
 		vals     [10]sql.NullFloat64
 		dest     = make([]any, 0, 13)
 		id, pos  int64
-		at       atValue
+		at       dbTime
 	)
 	dest = append(dest, &id, &at, &pos)
 	for i := range vals {
@@ -211,14 +187,14 @@ func (s *Store) ScanSamples(ctx context.Context, driveID int64, from, to time.Ti
 					return n, err
 				}
 				n++
-				after, hasAfter = at.t.UnixMicro(), true
+				after, hasAfter = at.T.UnixMicro(), true
 				v := func(i int) float64 {
 					if vals[i].Valid {
 						return vals[i].Float64
 					}
 					return math.NaN()
 				}
-				smp := health.Sample{At: at.t.Unix(), InternalAirC: v(0), AmbientC: v(1), HeatsinkC: v(2), CurrentA: v(3),
+				smp := health.Sample{At: at.T.Unix(), InternalAirC: v(0), AmbientC: v(1), HeatsinkC: v(2), CurrentA: v(3),
 					PeakCurrentA: v(4), FrequencyHz: v(5), BusV: v(6), BusRippleV: v(7), CapacitanceUF: v(8), ESRMilliohm: v(9)}
 				if err := fn(pos, smp); err != nil {
 					return n, &stopScan{err}

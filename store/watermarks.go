@@ -2,9 +2,10 @@ package store
 
 import (
 	"context"
-	"database/sql"
 	"fmt"
 	"time"
+
+	"gorm.io/gorm"
 )
 
 // Watermark is how far the assessment has processed a drive's readings.
@@ -17,12 +18,11 @@ import (
 //     RecomputeFrom to the earliest new reading of every drive that
 //     received one at or before its AssessedTo; readings after AssessedTo
 //     are simply new and change nothing here;
-//   - on PostgreSQL an assessment that must not miss a late reading locks
-//     the drive's row (SELECT … FOR UPDATE, after inserting it when
-//     missing) before it reads the readings, in the transaction that
-//     advances the watermark: an ingest's update of the same row then waits
-//     and re-checks against the new AssessedTo. On SQLite every write
-//     transaction holds the database's write lock, which does the same.
+//   - an ingest can commit between the assessment's read of a drive's
+//     readings and its save; so the assessment, in the transaction that
+//     advances the watermark, counts the readings in the range it covered
+//     and sets RecomputeFrom when the count differs from what it took in
+//     (markMissed): no late reading is lost either way.
 type Watermark struct {
 	DriveID       int64      `json:"drive_id"`
 	AssessedTo    time.Time  `json:"assessed_to"`
@@ -33,8 +33,8 @@ type Watermark struct {
 // has not processed the drive yet.
 func (s *Store) Watermark(ctx context.Context, driveID int64) (Watermark, bool, error) {
 	var (
-		to   atValue
-		from nullAt
+		to   dbTime
+		from dbTime
 	)
 	err := s.sqlDB.QueryRowContext(ctx, s.rebind("SELECT assessed_to, recompute_from FROM drive_watermarks WHERE drive_id = ?"), driveID).
 		Scan(&to, &from)
@@ -44,10 +44,8 @@ func (s *Store) Watermark(ctx context.Context, driveID int64) (Watermark, bool, 
 	if err != nil {
 		return Watermark{}, false, fmt.Errorf("watermark of drive %d: %w", driveID, translate(err))
 	}
-	w := Watermark{DriveID: driveID, AssessedTo: to.t}
-	if from.valid {
-		w.RecomputeFrom = &from.t
-	}
+	w := Watermark{DriveID: driveID, AssessedTo: to.T}
+	w.RecomputeFrom = from.ptr()
 	return w, true, nil
 }
 
@@ -57,43 +55,25 @@ func (s *Store) Watermark(ctx context.Context, driveID int64) (Watermark, bool, 
 // started from (nil when there was none): a mark an ingest set meanwhile
 // stays for the next run.
 func (s *Store) AdvanceWatermark(ctx context.Context, driveID int64, assessedTo time.Time, handled *time.Time) error {
+	return s.advanceWatermarkTx(s.db.WithContext(ctx), driveID, assessedTo, handled)
+}
+
+// advanceWatermarkTx is AdvanceWatermark inside the caller's transaction.
+func (s *Store) advanceWatermarkTx(tx *gorm.DB, driveID int64, assessedTo time.Time, handled *time.Time) error {
 	var h any
 	if handled != nil {
-		h = s.atArg(*handled)
+		h = s.timeArg(*handled)
 	}
-	q := `INSERT INTO drive_watermarks (drive_id, assessed_to, recompute_from) VALUES (?, ?, NULL)
-		ON CONFLICT (drive_id) DO UPDATE SET assessed_to = excluded.assessed_to,
-		recompute_from = CASE WHEN drive_watermarks.recompute_from IS NOT DISTINCT FROM ? THEN NULL
-			ELSE drive_watermarks.recompute_from END`
+	cast := "?"
 	if s.dialect == Postgres {
-		q = `INSERT INTO drive_watermarks (drive_id, assessed_to, recompute_from) VALUES (?, ?, NULL)
-		ON CONFLICT (drive_id) DO UPDATE SET assessed_to = excluded.assessed_to,
-		recompute_from = CASE WHEN drive_watermarks.recompute_from IS NOT DISTINCT FROM ?::timestamptz THEN NULL
-			ELSE drive_watermarks.recompute_from END`
+		cast = "CAST(? AS timestamptz)"
 	}
-	if _, err := s.sqlDB.ExecContext(ctx, s.rebind(q), driveID, s.atArg(assessedTo), h); err != nil {
+	err := tx.Exec(`INSERT INTO drive_watermarks (drive_id, assessed_to, recompute_from) VALUES (?, ?, NULL)
+		ON CONFLICT (drive_id) DO UPDATE SET assessed_to = excluded.assessed_to,
+		recompute_from = CASE WHEN drive_watermarks.recompute_from IS NOT DISTINCT FROM `+cast+` THEN NULL
+			ELSE drive_watermarks.recompute_from END`, driveID, s.timeArg(assessedTo), h).Error
+	if err != nil {
 		return fmt.Errorf("advance watermark of drive %d: %w", driveID, translate(err))
 	}
 	return nil
 }
-
-// nullAt scans an optional reading time from either dialect.
-type nullAt struct {
-	t     time.Time
-	valid bool
-}
-
-func (n *nullAt) Scan(v any) error {
-	if v == nil {
-		n.valid = false
-		return nil
-	}
-	var a atValue
-	if err := a.Scan(v); err != nil {
-		return err
-	}
-	n.t, n.valid = a.t, true
-	return nil
-}
-
-var _ sql.Scanner = (*nullAt)(nil)
