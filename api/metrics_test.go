@@ -2,7 +2,10 @@ package api_test
 
 import (
 	"bytes"
+	"context"
+	"fmt"
 	"net/http"
+	"net/http/httptest"
 	"os"
 	"os/exec"
 	"strings"
@@ -11,6 +14,9 @@ import (
 	"github.com/prometheus/common/expfmt"
 	"github.com/prometheus/common/model"
 
+	"kelvard/api"
+	"kelvard/jobs"
+	"kelvard/store"
 	"kelvard/store/storetest"
 )
 
@@ -77,4 +83,85 @@ func TestMetricsBehindToken(t *testing.T) {
 	h := newHarnessWith(t, st, func(c *apiConfig) { c.MetricsToken = true })
 	h.must(http.StatusUnauthorized, http.MethodGet, "/metrics", "", nil)
 	h.must(http.StatusOK, http.MethodGet, "/metrics", h.admin, nil)
+}
+
+// TestMetricsAfterAssessment checks names, labels and values once drives
+// are assessed: every assessed drive counted once by band, its per-drive
+// series labelled with serial, position and site, and the job metrics read
+// from the store.
+func TestMetricsAfterAssessment(t *testing.T) {
+	t.Parallel()
+	forEachStore(t, func(t *testing.T, h *harness) {
+		f := h.buildFleet("a")
+		h.buildFleet("b")
+		// A hose-down area for fleet a's Type 1 drive: one critical finding.
+		h.must(http.StatusOK, http.MethodPatch, fmt.Sprintf("/api/v1/areas/%d", f.area), h.admin,
+			map[string]any{"environment": map[string]any{"water": "hose_down"}})
+		sched, err := jobs.New(jobs.Config{Store: h.store, Jobs: []jobs.Job{jobs.AssessJob{Assessor: jobs.NewAssessor(h.store, jobs.AssessConfig{})}}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if run, err := sched.Run(context.Background(), jobs.Assess, nil); err != nil || run.Status != store.JobSucceeded {
+			t.Fatalf("assess: %+v %v", run, err)
+		}
+		srv, err := api.New(api.Config{JobStats: func(ctx context.Context) ([]api.JobStat, error) {
+			stats, err := h.store.JobRunStats(ctx)
+			var out []api.JobStat
+			for _, s := range stats {
+				js := api.JobStat{Job: s.Job}
+				if d, ok := s.LastDuration(); ok {
+					js.LastDurationS = d.Seconds()
+				}
+				if s.LastSuccessAt != nil {
+					js.LastSuccessUnix, js.HasSuccess = float64(s.LastSuccessAt.Unix()), true
+				}
+				out = append(out, js)
+			}
+			return out, err
+		}}, h.store, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		rec := httptest.NewRecorder()
+		srv.ServeHTTP(rec, httptest.NewRequest(http.MethodGet, "/metrics", nil))
+		parser := expfmt.NewTextParser(model.UTF8Validation)
+		fams, err := parser.TextToMetricFamilies(rec.Body)
+		if err != nil {
+			t.Fatal(err)
+		}
+		total := 0.0
+		for _, m := range fams["kelvard_drives"].GetMetric() {
+			total += m.GetGauge().GetValue()
+		}
+		if total != 2 {
+			t.Errorf("kelvard_drives sums to %v, want the 2 assessed drives", total)
+		}
+		critical := 0.0
+		for _, m := range fams["kelvard_findings_open"].GetMetric() {
+			labels := map[string]string{}
+			for _, l := range m.GetLabel() {
+				labels[l.GetName()] = l.GetValue()
+			}
+			if labels["site"] == "Works a" && labels["kind"] == "enclosure" && labels["severity"] == "critical" {
+				critical = m.GetGauge().GetValue()
+			}
+		}
+		if critical != 1 {
+			t.Errorf("critical enclosure findings at Works a: %v, want 1", critical)
+		}
+		caps := fams["kelvard_drive_capacitor_life_used_ratio"].GetMetric()
+		if len(caps) != 2 {
+			t.Fatalf("%d per-drive capacitor series, want 2", len(caps))
+		}
+		labels := map[string]string{}
+		for _, l := range caps[0].GetLabel() {
+			labels[l.GetName()] = l.GetValue()
+		}
+		if labels["drive"] != "S-a" || labels["position"] != "DP-a" || labels["site"] != "Works a" {
+			t.Errorf("per-drive labels %v", labels)
+		}
+		if fams["kelvard_job_last_success_timestamp_seconds"] == nil || fams["kelvard_job_duration_seconds"] == nil {
+			t.Error("job metrics missing")
+		}
+	})
 }
