@@ -195,6 +195,8 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	metricsToken := fs.Bool("metrics-token", envOr(getenv, "KELVARD_METRICS_TOKEN", "false") == "true", "require a bearer token on /metrics (KELVARD_METRICS_TOKEN=true)")
 	rawRetention := fs.Duration("raw-retention", envDuration(getenv, "KELVARD_RAW_RETENTION", 400*24*time.Hour),
 		"how long raw readings are kept before they are rolled up into hourly aggregates; at least 100 days (KELVARD_RAW_RETENTION)")
+	rateLimit := fs.Float64("rate-limit", envFloat(getenv, "KELVARD_RATE_LIMIT", 100),
+		"requests per second each token may make on this replica; 0 turns the limit off (KELVARD_RATE_LIMIT)")
 	demoFleet := fs.Bool("demo", false, "load an invented demo fleet into an empty store, assess it, and print an admin token")
 	if err := parse(fs, args); err != nil {
 		return err
@@ -237,7 +239,7 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	}
 	defer jf.stop(sched, log) // before the store closes: waits for a running job
 	cfg := api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies), MaxImportBytes: importLimit, Jobs: sched,
-		MetricsToken: *metricsToken, JobStats: jobStats(st)}
+		MetricsToken: *metricsToken, JobStats: jobStats(st), RateLimit: *rateLimit}
 	var demoToken string
 	if *demoFleet {
 		t, secret, err := st.CreateToken(ctx, store.NewToken{Name: "demo admin", Role: store.RoleAdmin})
@@ -639,6 +641,17 @@ func jobStats(st *store.Store) func(ctx context.Context) ([]api.JobStat, error) 
 		}
 		return out, nil
 	}
+}
+
+// envFloat reads a number default from the environment; a value that does
+// not parse is left for the flag package to report.
+func envFloat(getenv func(string) string, key string, def float64) float64 {
+	if v := getenv(key); v != "" {
+		if f, err := strconv.ParseFloat(v, 64); err == nil {
+			return f
+		}
+	}
+	return def
 }
 
 // envDuration reads a duration default from the environment; a value that

@@ -49,7 +49,7 @@ func (s *Server) route(op operation, h gin.HandlerFunc) {
 	}
 	chain := []gin.HandlerFunc{}
 	if op.Role != "" {
-		chain = append(chain, s.authenticate, require(op.Role))
+		chain = append(chain, s.authenticate, require(op.Role), s.limit)
 	}
 	chain = append(chain, h)
 	s.engine.Handle(op.Method, op.Path, chain...)

@@ -42,6 +42,11 @@ type Config struct {
 	PerDriveMetricsLimit int
 	// MetricsToken requires a bearer token (any role) on /metrics.
 	MetricsToken bool
+	// RateLimit is the requests per second each token may make on one
+	// replica (0 turns the limit off); RateBurst the bucket size (default
+	// twice the rate).
+	RateLimit float64
+	RateBurst int
 	// JobStats reports each job's last run for the job metrics.
 	JobStats func(ctx context.Context) ([]JobStat, error)
 	// Jobs lists job runs and starts manual ones (*jobs.Scheduler); nil
@@ -63,6 +68,8 @@ type Server struct {
 	ops    []operation
 	// registry is what /metrics serves.
 	registry *prometheus.Registry
+	// limiters enforce the per-token request rate.
+	limiters *limiters
 	ingest   *IngestMetrics
 	// migrated caches a positive migrations check: once current, a running
 	// binary's schema stays current.
@@ -93,7 +100,7 @@ func New(cfg Config, st *store.Store, log *slog.Logger) (*Server, error) {
 	if err := e.SetTrustedProxies(cfg.TrustedProxies); err != nil {
 		return nil, err
 	}
-	s := &Server{cfg: cfg, store: st, log: log, engine: e}
+	s := &Server{cfg: cfg, store: st, log: log, engine: e, limiters: newLimiters(cfg.RateLimit, cfg.RateBurst)}
 	reg, err := s.newRegistry()
 	if err != nil {
 		return nil, err
