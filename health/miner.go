@@ -673,13 +673,24 @@ func (l *LifeLedger) project(p LifeProjectionParams, at int64) LifeReport {
 		r.EndOfLifeAt, r.EndOfLifeEarliestAt, r.EndOfLifeLatestAt = l.ReachedAt, l.ReachedAt, l.ReachedAt
 		return r
 	}
-	left := 1 - l.Damage
-	if rate > 0 {
+	r.projectEnd()
+	return r
+}
+
+// projectEnd sets the remaining hours, the projected end of life and its
+// band from LifeUsedFraction and the report's rates: (1 - D)/r from the
+// last reading at the trailing rate, (1 - D_at)/r_present at the present
+// rate, and the band from the harshest and mildest block.
+func (r *LifeReport) projectEnd() {
+	left := 1 - r.LifeUsedFraction
+	r.Projected, r.EndOfLifeAt, r.EndOfLifeEarliestAt, r.EndOfLifeLatestAt = false, 0, 0, 0
+	r.RemainingH, r.RemainingAtPresentH = math.Inf(1), math.Inf(1)
+	if rate := r.DamageRatePerH; rate > 0 {
 		fromLast := left / rate
 		r.RemainingH = math.Max(0, fromLast-r.HoursSinceLast)
 		if fromLast <= lifeMaxProjectionH {
 			r.Projected = true
-			r.EndOfLifeAt = l.LastAt + int64(math.Round(fromLast*lifeSecondsPerHour))
+			r.EndOfLifeAt = r.LastAt + int64(math.Round(fromLast*lifeSecondsPerHour))
 			r.EndOfLifeEarliestAt, r.EndOfLifeLatestAt = r.EndOfLifeAt, r.EndOfLifeAt
 		}
 	}
@@ -691,13 +702,12 @@ func (l *LifeLedger) project(p LifeProjectionParams, at int64) LifeReport {
 		for _, b := range r.BlockRatesPerH[1:] {
 			lo, hi = math.Min(lo, b), math.Max(hi, b)
 		}
-		r.EndOfLifeEarliestAt = l.LastAt + int64(math.Round(left/hi*lifeSecondsPerHour))
+		r.EndOfLifeEarliestAt = r.LastAt + int64(math.Round(left/hi*lifeSecondsPerHour))
 		r.EndOfLifeLatestAt = 0
 		if lo > 0 && left/lo <= lifeMaxProjectionH {
-			r.EndOfLifeLatestAt = l.LastAt + int64(math.Round(left/lo*lifeSecondsPerHour))
+			r.EndOfLifeLatestAt = r.LastAt + int64(math.Round(left/lo*lifeSecondsPerHour))
 		}
 	}
-	return r
 }
 
 // TempBin is the time a drive spent with its air temperature in one 1 °C
@@ -1063,31 +1073,6 @@ func (r LifeReport) WithUnobserved(hours, fallbackRatePerH float64) LifeReport {
 		r.EndOfLifeAt, r.EndOfLifeEarliestAt, r.EndOfLifeLatestAt = r.EndReachedAt, r.EndReachedAt, r.EndReachedAt
 		return r
 	}
-	left := 1 - r.LifeUsedFraction
-	r.Projected, r.EndOfLifeAt, r.EndOfLifeEarliestAt, r.EndOfLifeLatestAt = false, 0, 0, 0
-	r.RemainingH = math.Inf(1)
-	if tr := r.DamageRatePerH; tr > 0 {
-		fromLast := left / tr
-		r.RemainingH = math.Max(0, fromLast-r.HoursSinceLast)
-		if fromLast <= lifeMaxProjectionH {
-			r.Projected = true
-			r.EndOfLifeAt = r.LastAt + int64(math.Round(fromLast*lifeSecondsPerHour))
-			r.EndOfLifeEarliestAt, r.EndOfLifeLatestAt = r.EndOfLifeAt, r.EndOfLifeAt
-		}
-	}
-	if pr := r.PresentDamageRatePerH; pr > 0 {
-		r.RemainingAtPresentH = math.Max(0, (1-r.LifeUsedAtAssessmentFraction)/pr)
-	}
-	if r.Projected && len(r.BlockRatesPerH) >= 2 {
-		lo, hi := r.BlockRatesPerH[0], r.BlockRatesPerH[0]
-		for _, b := range r.BlockRatesPerH[1:] {
-			lo, hi = math.Min(lo, b), math.Max(hi, b)
-		}
-		r.EndOfLifeEarliestAt = r.LastAt + int64(math.Round(left/hi*lifeSecondsPerHour))
-		r.EndOfLifeLatestAt = 0
-		if lo > 0 && left/lo <= lifeMaxProjectionH {
-			r.EndOfLifeLatestAt = r.LastAt + int64(math.Round(left/lo*lifeSecondsPerHour))
-		}
-	}
+	r.projectEnd()
 	return r
 }
