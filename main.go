@@ -44,6 +44,7 @@ Commands:
   serve     run the HTTP server (API, pages, metrics, scheduled jobs)
   migrate   apply database migrations and exit
   token     make, list and revoke API tokens
+  bench     measure the server on this machine (bench ingest)
   version   print the version
 
 Every flag can also be set by an environment variable named in its help,
@@ -66,6 +67,8 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 		err = cmdMigrate(ctx, rest, getenv, stdout, stderr)
 	case "token":
 		err = cmdToken(ctx, rest, getenv, stdout, stderr)
+	case "bench":
+		err = cmdBench(ctx, rest, getenv, stdout, stderr)
 	case "version":
 		fmt.Fprintln(stdout, "kelvard", buildVersion())
 	case "help", "-h", "--help":
@@ -168,6 +171,10 @@ func (c *common) open(ctx context.Context, log *slog.Logger) (*store.Store, erro
 		st.Close()
 		return nil, err
 	}
+	if err := st.PrepareReadingPartitions(ctx); err != nil {
+		st.Close()
+		return nil, err
+	}
 	log.Info("database ready", slog.String("dialect", string(st.Dialect())), slog.Int64("schema_version", v))
 	return st, nil
 }
@@ -178,6 +185,10 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	bootstrap := fs.String("bootstrap-token", getenv("KELVARD_BOOTSTRAP_TOKEN"),
 		"becomes an admin token when the store holds none (KELVARD_BOOTSTRAP_TOKEN); make one with `kelvard token new-secret`")
 	proxies := fs.String("trusted-proxies", getenv("KELVARD_TRUSTED_PROXIES"), "comma-separated proxy addresses or CIDRs whose X-Forwarded-For is trusted (KELVARD_TRUSTED_PROXIES)")
+	limits, err := ingestLimitFlags(fs, getenv)
+	if err != nil {
+		return err
+	}
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -199,7 +210,8 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 			log.Info("bootstrap admin token registered")
 		}
 	}
-	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies)}, st, log)
+	srv, err := api.New(api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies),
+		MaxIngestBytes: limits.bytes, MaxIngestRows: limits.rows}, st, log)
 	if err != nil {
 		return err
 	}
