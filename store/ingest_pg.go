@@ -44,9 +44,6 @@ import (
 // readingColumnList is the column list of readings in table order.
 var readingColumnList = "drive_id, at, position_id, " + strings.Join(readingValueNames[:], ", ")
 
-// readingCopyColumns names the COPY columns in table order.
-var readingCopyColumns = append([]string{"drive_id", "at", "position_id"}, readingValueNames[:]...)
-
 const createStagingSQL = "CREATE TEMP TABLE readings_staging (LIKE readings) ON COMMIT DROP"
 
 var insertFromStagingSQL = `WITH ins AS (
@@ -208,12 +205,15 @@ func (s *Store) writePostgres(ctx context.Context, p *ingestPlan) (int, []Confli
 				}
 			}
 			if len(direct) > 0 {
-				n, err := tx.CopyFrom(ctx, pgx.Identifier{"readings"}, readingCopyColumns, &copySource{rows: p.rows, good: direct})
+				n, err := copyRows(ctx, tx, "readings", p.rows, direct)
 				if err != nil {
 					return fmt.Errorf("copy into readings: %w", err)
 				}
 				inserted += int(n)
-				firsts := spans(direct)
+				firsts := sp
+				if len(staged) > 0 {
+					firsts = spans(direct)
+				}
 				ids := make([]int64, 0, len(firsts))
 				ats := make([]time.Time, 0, len(firsts))
 				for d, x := range firsts {
@@ -231,7 +231,7 @@ func (s *Store) writePostgres(ctx context.Context, p *ingestPlan) (int, []Confli
 			if _, err := tx.Exec(ctx, createStagingSQL, pgx.QueryExecModeExec); err != nil {
 				return fmt.Errorf("create staging table: %w", err)
 			}
-			n, err := tx.CopyFrom(ctx, pgx.Identifier{"readings_staging"}, readingCopyColumns, &copySource{rows: p.rows, good: staged})
+			n, err := copyRows(ctx, tx, "readings_staging", p.rows, staged)
 			if err != nil {
 				return fmt.Errorf("copy into staging: %w", err)
 			}
@@ -301,33 +301,11 @@ func uniqueViolation(err error) bool {
 	return errors.As(err, &pgErr) && pgErr.Code == "23505"
 }
 
-// copySource feeds planned rows to CopyFrom without copying them: every
-// value is a pointer into the plan or the caller's rows, and a nil
-// measurement pointer is NULL.
-type copySource struct {
-	rows []Reading
-	good []plannedRow
-	i    int
-	vals [3 + readingValueCount]any
+// copyRows COPYs planned rows into table (readings or readings_staging)
+// with pgx's CopyFrom on the transaction's connection, the rows encoded by
+// copyEncoder.
+func copyRows(ctx context.Context, tx pgx.Tx, table string, rows []Reading, good []plannedRow) (int64, error) {
+	tag, err := tx.Conn().PgConn().CopyFrom(ctx, newCopyEncoder(rows, good),
+		"COPY "+table+" ("+readingColumnList+") FROM STDIN (FORMAT binary)")
+	return tag.RowsAffected(), err
 }
-
-func (c *copySource) Next() bool {
-	c.i++
-	return c.i <= len(c.good)
-}
-
-func (c *copySource) Values() ([]any, error) {
-	g := &c.good[c.i-1]
-	r := &c.rows[g.idx]
-	c.vals[0], c.vals[1], c.vals[2] = &g.driveID, &g.at, &g.positionID
-	for j, v := range r.values() {
-		if v == nil {
-			c.vals[3+j] = nil
-		} else {
-			c.vals[3+j] = v
-		}
-	}
-	return c.vals[:], nil
-}
-
-func (c *copySource) Err() error { return nil }

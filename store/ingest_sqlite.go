@@ -174,12 +174,13 @@ func writeSQLite(ctx context.Context, db gorm.ConnPool, p *ingestPlan) (int, []C
 // each as inserted, with its drive's earliest new reading.
 func scanInserted(rs *sql.Rows, p *ingestPlan, inserted []bool, firsts map[int64]int64, count *int) error {
 	defer rs.Close()
+	index := p.keyIndex()
 	for rs.Next() {
 		var k readingKey
 		if err := rs.Scan(&k.drive, &k.at); err != nil {
 			return err
 		}
-		j, ok := p.byKey[k]
+		j, ok := index[k]
 		if !ok || inserted[j] {
 			continue
 		}
