@@ -42,7 +42,7 @@ func ingestLimitFlags(fs *flag.FlagSet, getenv func(string) string) (*ingestLimi
 	return l, nil
 }
 
-const benchUsage = "usage: kelvard bench ingest --database-url postgres://… [-n 1000000] [--positions 500] [--batch 10000] [--senders 3]"
+const benchUsage = "usage: kelvard bench ingest --database-url postgres://… [-n 1000000] [--positions 500] [--batch 10000] [--senders 3] [--rounds 1]"
 
 // cmdBench runs a benchmark; see package kelvard/jobs/bench.
 func cmdBench(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
@@ -55,11 +55,12 @@ func cmdBench(ctx context.Context, args []string, getenv func(string) string, st
 	fs.IntVar(&cfg.Positions, "positions", 500, "positions (each with a drive) the readings are spread over")
 	fs.IntVar(&cfg.BatchRows, "batch", 10000, "readings per request or COPY")
 	fs.IntVar(&cfg.Senders, "senders", 3, "concurrent senders")
+	fs.IntVar(&cfg.Rounds, "rounds", 1, "split the run into rounds in which CSV, JSON and COPY take turns, forward then backward (1: one phase after the other)")
 	if err := parse(fs, args[1:]); err != nil {
 		return err
 	}
-	if cfg.Readings <= 0 || cfg.Positions <= 0 || cfg.BatchRows <= 0 || cfg.Senders <= 0 {
-		return usageError{errors.New("-n, --positions, --batch and --senders must be positive")}
+	if cfg.Readings <= 0 || cfg.Positions <= 0 || cfg.BatchRows <= 0 || cfg.Senders <= 0 || cfg.Rounds <= 0 {
+		return usageError{errors.New("-n, --positions, --batch, --senders and --rounds must be positive")}
 	}
 	cfg.DatabaseURL, cfg.Progress = c.databaseURL, stderr
 	rep, err := bench.Ingest(ctx, cfg)

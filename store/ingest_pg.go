@@ -19,7 +19,9 @@ import (
 //
 //  1. one query finds the drives of the batch that already have a stored
 //     reading between their first and last reading in the batch: only
-//     their rows can meet a stored reading;
+//     their rows can meet a stored reading (a drive whose readings in the
+//     batch all come after the latest this process stored for it is not
+//     asked about; see highWater);
 //  2. the rows of every other drive are COPYed straight into readings, and
 //     one UPDATE lowers recompute_from of the drives among them that got a
 //     reading at or before their assessed_to;
@@ -94,15 +96,23 @@ func (s *Store) ingestPostgres(ctx context.Context, rows []Reading, opts IngestO
 		inserted  int
 		conflicts []Conflict
 	)
+	useHints := true
 	for attempt := 0; attempt < 4; attempt++ {
-		inserted, conflicts, err = s.writePostgres(ctx, p)
+		inserted, conflicts, err = s.writePostgres(ctx, p, useHints)
 		if err == nil || !(retryable(err) || uniqueViolation(err)) {
 			break
+		}
+		if uniqueViolation(err) {
+			// A reading was stored meanwhile, or a hint was wrong: ask
+			// the database about every drive from now on.
+			s.ingest.high.forget(spans(p.good))
+			useHints = false
 		}
 	}
 	if err != nil {
 		return IngestResult{}, translate(err)
 	}
+	s.ingest.high.record(spans(p.good))
 	return p.result(inserted, conflicts, opts), nil
 }
 
@@ -154,7 +164,7 @@ func spans(rows []plannedRow) map[int64]driveSpan {
 
 // writePostgres runs the write transaction on a pgx connection from the
 // pool.
-func (s *Store) writePostgres(ctx context.Context, p *ingestPlan) (int, []Conflict, error) {
+func (s *Store) writePostgres(ctx context.Context, p *ingestPlan, useHints bool) (int, []Conflict, error) {
 	conn, err := s.sqlDB.Conn(ctx)
 	if err != nil {
 		return 0, nil, fmt.Errorf("take a connection: %w", err)
@@ -179,15 +189,20 @@ func (s *Store) writePostgres(ctx context.Context, p *ingestPlan) (int, []Confli
 			los := make([]time.Time, 0, len(sp))
 			his := make([]time.Time, 0, len(sp))
 			for d, x := range sp {
+				if useHints && s.ingest.high.clearAfter(d, x.lo) {
+					continue
+				}
 				drives, los, his = append(drives, d), append(los, x.lo), append(his, x.hi)
 			}
-			rows, err := tx.Query(ctx, overlapSQL, pgx.QueryExecModeExec, drives, los, his)
-			if err != nil {
-				return fmt.Errorf("look for stored readings in the batch's span: %w", err)
-			}
-			overlapping, err := pgx.CollectRows(rows, pgx.RowTo[int64])
-			if err != nil {
-				return fmt.Errorf("look for stored readings in the batch's span: %w", err)
+			var overlapping []int64
+			if len(drives) > 0 {
+				rows, err := tx.Query(ctx, overlapSQL, pgx.QueryExecModeExec, drives, los, his)
+				if err != nil {
+					return fmt.Errorf("look for stored readings in the batch's span: %w", err)
+				}
+				if overlapping, err = pgx.CollectRows(rows, pgx.RowTo[int64]); err != nil {
+					return fmt.Errorf("look for stored readings in the batch's span: %w", err)
+				}
 			}
 			direct, staged := p.good, []plannedRow(nil)
 			if len(overlapping) > 0 {

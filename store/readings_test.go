@@ -536,3 +536,50 @@ func TestConcurrentIdenticalBatches(t *testing.T) {
 		}
 	})
 }
+
+// TestReplicaReplayDespiteStaleHint replays, through one replica, readings
+// another replica stored after the first one's last batch: the first
+// replica's hint says they are new, the COPY meets them and the retry
+// reports them as already present (and a changed one as a conflict).
+func TestReplicaReplayDespiteStaleHint(t *testing.T) {
+	t.Parallel()
+	for _, d := range storetest.Dialects {
+		t.Run(string(d), func(t *testing.T) {
+			t.Parallel()
+			ctx := context.Background()
+			url := storetest.URL(t, d)
+			open := func() *store.Store {
+				s, err := store.Open(ctx, url, store.Options{})
+				if err != nil {
+					t.Fatal(err)
+				}
+				t.Cleanup(func() { s.Close() })
+				if _, err := s.Migrate(ctx); err != nil {
+					t.Fatal(err)
+				}
+				return s
+			}
+			a, b := open(), open()
+			fx := storetest.Build(t, a, "a")
+			if res, err := a.Ingest(ctx, hourly(fx.Position.Tag, day0, 10), store.IngestOptions{}); err != nil || res.Inserted != 10 {
+				t.Fatalf("first batch on replica a: %+v, %v", res, err)
+			}
+			later := hourly(fx.Position.Tag, day0.Add(10*time.Hour), 10)
+			if res, err := b.Ingest(ctx, later, store.IngestOptions{}); err != nil || res.Inserted != 10 {
+				t.Fatalf("second batch on replica b: %+v, %v", res, err)
+			}
+			replay := hourly(fx.Position.Tag, day0.Add(10*time.Hour), 11)
+			replay[4].BusV = f(600)
+			res, err := a.Ingest(ctx, replay, store.IngestOptions{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if res.Inserted != 1 || res.AlreadyPresent != 9 || len(res.Conflicts) != 1 || res.Conflicts[0].Row != 5 {
+				t.Errorf("replay through replica a: %+v", res)
+			}
+			if n := countReadings(t, a, fx.Drive.ID); n != 21 {
+				t.Errorf("%d readings stored, want 21", n)
+			}
+		})
+	}
+}

@@ -47,7 +47,7 @@ type Store struct {
 	dialect Dialect
 	log     *slog.Logger
 	now     func() time.Time
-	parts   partitionSet // readings partitions known to exist (PostgreSQL)
+	ingest  ingestState // readings partitions known to exist, per-drive hints
 }
 
 // Options tunes Open. The zero value is usable.

@@ -3,10 +3,12 @@
 // Ingest (`kelvard bench ingest`) sends the same readings three ways, each
 // into a fresh scratch schema of a PostgreSQL database so all three start
 // equal: as CSV batches through the HTTP API of a real `kelvard serve`
-// child process, as JSON batches the same way, and straight into an
-// identical readings table with pgx CopyFrom, the fastest a client can load
-// PostgreSQL. It reports the three rates, the two API rates as fractions of
-// the COPY rate, and the server's peak resident memory.
+// child process, as JSON batches through a second one, and straight into
+// an identical readings table with pgx CopyFrom, the fastest a client can
+// load PostgreSQL; between phases the table just written is vacuumed and
+// flushed, so each starts with clean buffers. It reports the three rates,
+// the two API rates as fractions of the COPY rate, and each server's peak
+// resident memory and CPU time.
 package bench
 
 import (
@@ -22,6 +24,7 @@ import (
 	"net/http"
 	"net/url"
 	"os"
+	"slices"
 	"strings"
 	"sync"
 	"time"
@@ -41,6 +44,14 @@ type IngestConfig struct {
 	// over Positions positions (default 500), in batches of BatchRows
 	// (default 10 000) from Senders concurrent senders (default 3).
 	Readings, Positions, BatchRows, Senders int
+	// Rounds splits the run (default 1: CSV, then JSON, then COPY). With
+	// more, each round sends its share of the batches through the three
+	// paths in turn, forward in even rounds and backward in odd ones, and
+	// each phase's time is the sum over the rounds, so a drift in other
+	// load on the machine falls on all three alike. Between any two steps
+	// the table just written is vacuumed and a checkpoint flushes it, out
+	// of the timing, so every step starts with clean buffers.
+	Rounds int
 	// Executable is the kelvard binary to run as the server (default: this
 	// process's own executable).
 	Executable string
@@ -72,9 +83,9 @@ func (p Phase) RowsPerSecond() float64 { return float64(p.Rows) / p.Elapsed.Seco
 
 // IngestReport is the outcome of Ingest.
 type IngestReport struct {
-	Machine                                 Machine
-	Readings, Positions, BatchRows, Senders int
-	CSV, JSON, Copy                         Phase
+	Machine                                         Machine
+	Readings, Positions, BatchRows, Senders, Rounds int
+	CSV, JSON, Copy                                 Phase
 }
 
 // CSVRatio is the CSV rate as a fraction of the COPY rate.
@@ -86,8 +97,8 @@ func (r IngestReport) JSONRatio() float64 { return r.JSON.RowsPerSecond() / r.Co
 // Print writes the report as a small table.
 func (r IngestReport) Print(w io.Writer) {
 	m := r.Machine
-	fmt.Fprintf(w, "kelvard bench ingest: %d readings over %d positions, batches of %d rows, %d concurrent senders\n",
-		r.Readings, r.Positions, r.BatchRows, r.Senders)
+	fmt.Fprintf(w, "kelvard bench ingest: %d readings over %d positions, batches of %d rows, %d concurrent senders, %d rounds\n",
+		r.Readings, r.Positions, r.BatchRows, r.Senders, r.Rounds)
 	fmt.Fprintf(w, "machine: %d CPUs, %s, %s, load average %s at start\n\n", m.CPUs, m.CPUModel, m.GoVersion, m.LoadAverage)
 	fmt.Fprintf(w, "%-16s %12s %10s %9s %16s %11s\n", "phase", "rows/s", "seconds", "vs COPY", "server peak RSS", "server CPU")
 	for _, p := range []Phase{r.CSV, r.JSON, r.Copy} {
@@ -126,6 +137,9 @@ func Ingest(ctx context.Context, cfg IngestConfig) (IngestReport, error) {
 	if cfg.Senders <= 0 {
 		cfg.Senders = 3
 	}
+	if cfg.Rounds <= 0 {
+		cfg.Rounds = 1
+	}
 	if cfg.Progress == nil {
 		cfg.Progress = io.Discard
 	}
@@ -139,7 +153,8 @@ func Ingest(ctx context.Context, cfg IngestConfig) (IngestReport, error) {
 		}
 		cfg.Executable = exe
 	}
-	rep := IngestReport{Machine: thisMachine(), Readings: cfg.Readings, Positions: cfg.Positions, BatchRows: cfg.BatchRows, Senders: cfg.Senders}
+	rep := IngestReport{Machine: thisMachine(), Readings: cfg.Readings, Positions: cfg.Positions, BatchRows: cfg.BatchRows,
+		Senders: cfg.Senders, Rounds: cfg.Rounds}
 	say := func(format string, args ...any) { fmt.Fprintf(cfg.Progress, format+"\n", args...) }
 
 	admin, err := sql.Open("pgx", cfg.DatabaseURL)
@@ -202,8 +217,6 @@ func Ingest(ctx context.Context, cfg IngestConfig) (IngestReport, error) {
 		return rows
 	}
 	settle := func(schema string) error {
-		// Leave no work behind for the next phase: vacuum what this one
-		// wrote and flush it to disk.
 		if _, err := admin.ExecContext(ctx, "VACUUM (ANALYZE) "+schema+".readings"); err != nil {
 			return fmt.Errorf("vacuum %s: %w", schema, err)
 		}
@@ -212,69 +225,79 @@ func Ingest(ctx context.Context, cfg IngestConfig) (IngestReport, error) {
 		}
 		return nil
 	}
-	if err := settle(sch["csv"]); err != nil {
+	if err := settle(sch["copy"]); err != nil {
 		return rep, err
 	}
 
-	// CSV through the API.
-	say("encoding %d CSV batches", batches)
-	bodies := make([][]byte, batches)
+	say("starting the CSV and JSON servers")
+	csvSrv, err := newHTTPPhase(ctx, cfg, urls["csv"], secret, "text/csv")
+	if err != nil {
+		return rep, fmt.Errorf("CSV server: %w", err)
+	}
+	defer csvSrv.srv.stop()
+	jsonSrv, err := newHTTPPhase(ctx, cfg, urls["json"], secret, "application/json")
+	if err != nil {
+		return rep, fmt.Errorf("JSON server: %w", err)
+	}
+	defer jsonSrv.srv.stop()
+	copier, err := newCopyPhase(ctx, cfg, urls["copy"])
+	if err != nil {
+		return rep, fmt.Errorf("COPY connections: %w", err)
+	}
+	defer copier.close()
+
+	rounds := min(cfg.Rounds, batches)
 	cols := append([]string{"position", "at"}, store.ReadingValueColumns()...)
-	for k := range bodies {
-		var b bytes.Buffer
-		if err := store.WriteReadingsCSV(&b, batch(k), cols); err != nil {
+	for r := range rounds {
+		lo, hi := r*batches/rounds, (r+1)*batches/rounds
+		say("round %d of %d: batches %d to %d", r+1, rounds, lo+1, hi)
+		csvBodies, jsonBodies, copies := make([][]byte, 0, hi-lo), make([][]byte, 0, hi-lo), make([][]copyRow, 0, hi-lo)
+		for k := lo; k < hi; k++ {
+			rows := batch(k)
+			var b bytes.Buffer
+			if err := store.WriteReadingsCSV(&b, rows, cols); err != nil {
+				return rep, err
+			}
+			csvBodies, jsonBodies = append(csvBodies, b.Bytes()), append(jsonBodies, jsonBody(rows))
+			c := make([]copyRow, len(rows))
+			for i := range rows {
+				p := (k*cfg.BatchRows + i) % cfg.Positions
+				c[i] = newCopyRow(&rows[i], fl.drives[p], fl.positions[p])
+			}
+			copies = append(copies, c)
+		}
+		steps := []struct {
+			schema string
+			run    func() error
+		}{
+			{sch["csv"], func() error { return csvSrv.send(ctx, csvBodies, &rep.CSV) }},
+			{sch["json"], func() error { return jsonSrv.send(ctx, jsonBodies, &rep.JSON) }},
+			{sch["copy"], func() error { return copier.copy(ctx, copies, &rep.Copy) }},
+		}
+		if r%2 == 1 {
+			slices.Reverse(steps)
+		}
+		for _, st := range steps {
+			if err := st.run(); err != nil {
+				return rep, err
+			}
+			if err := settle(st.schema); err != nil {
+				return rep, err
+			}
+		}
+	}
+	for _, p := range []*httpPhase{csvSrv, jsonSrv} {
+		if err := p.finish(); err != nil {
 			return rep, err
 		}
-		bodies[k] = b.Bytes()
 	}
-	say("sending CSV")
-	if rep.CSV, err = sendHTTP(ctx, cfg, urls["csv"], secret, bodies, "text/csv"); err != nil {
-		return rep, fmt.Errorf("CSV phase: %w", err)
-	}
-	rep.CSV.Name = "HTTP CSV"
-	if err := checkCount(ctx, admin, sch["csv"], cfg.Readings); err != nil {
-		return rep, err
-	}
-	if err := settle(sch["csv"]); err != nil {
-		return rep, err
-	}
-
-	// JSON through the API.
-	say("encoding %d JSON batches", batches)
-	for k := range bodies {
-		bodies[k] = jsonBody(batch(k))
-	}
-	say("sending JSON")
-	if rep.JSON, err = sendHTTP(ctx, cfg, urls["json"], secret, bodies, "application/json"); err != nil {
-		return rep, fmt.Errorf("JSON phase: %w", err)
-	}
-	rep.JSON.Name = "HTTP JSON"
-	bodies = nil
-	if err := checkCount(ctx, admin, sch["json"], cfg.Readings); err != nil {
-		return rep, err
-	}
-	if err := settle(sch["json"]); err != nil {
-		return rep, err
-	}
-
-	// Raw COPY.
-	say("preparing %d COPY batches", batches)
-	copies := make([][]copyRow, batches)
-	for k := range copies {
-		rows := batch(k)
-		copies[k] = make([]copyRow, len(rows))
-		for i := range rows {
-			p := (k*cfg.BatchRows + i) % cfg.Positions
-			copies[k][i] = newCopyRow(&rows[i], fl.drives[p], fl.positions[p])
+	rep.CSV.PeakRSS, rep.CSV.ServerCPU = csvSrv.peakRSS, csvSrv.cpu
+	rep.JSON.PeakRSS, rep.JSON.ServerCPU = jsonSrv.peakRSS, jsonSrv.cpu
+	rep.CSV.Name, rep.JSON.Name, rep.Copy.Name = "HTTP CSV", "HTTP JSON", "pgx COPY"
+	for k, want := range map[string]int{"csv": cfg.Readings, "json": cfg.Readings, "copy": cfg.Readings} {
+		if err := checkCount(ctx, admin, sch[k], want); err != nil {
+			return rep, err
 		}
-	}
-	say("copying")
-	if rep.Copy, err = copyDirect(ctx, cfg, urls["copy"], copies); err != nil {
-		return rep, fmt.Errorf("COPY phase: %w", err)
-	}
-	rep.Copy.Name = "pgx COPY"
-	if err := checkCount(ctx, admin, sch["copy"], cfg.Readings); err != nil {
-		return rep, err
 	}
 	return rep, nil
 }
@@ -307,34 +330,45 @@ func prepareSchema(ctx context.Context, dbURL string, tl timeline, positions int
 	return f, nil
 }
 
-// sendHTTP starts a server on the schema and posts every body to
-// /api/v1/readings from cfg.Senders goroutines.
-func sendHTTP(ctx context.Context, cfg IngestConfig, dbURL, secret string, bodies [][]byte, media string) (Phase, error) {
-	largest := 0
-	for _, b := range bodies {
-		largest = max(largest, len(b))
-	}
+// httpPhase is a kelvard server taking one kind of body.
+type httpPhase struct {
+	srv     *server
+	client  *http.Client
+	secret  string
+	media   string
+	senders int
+	peakRSS int64
+	cpu     time.Duration
+}
+
+// newHTTPPhase starts a server on the schema.
+func newHTTPPhase(ctx context.Context, cfg IngestConfig, dbURL, secret, media string) (*httpPhase, error) {
 	srv, err := startServer(ctx, cfg.Executable, []string{
 		"KELVARD_DATABASE_URL=" + dbURL,
 		"KELVARD_BOOTSTRAP_TOKEN=" + secret,
 		"KELVARD_LOG_LEVEL=warn",
 		"KELVARD_LOG_FORMAT=text",
 		fmt.Sprintf("KELVARD_MAX_INGEST_ROWS=%d", cfg.BatchRows),
-		fmt.Sprintf("KELVARD_MAX_INGEST_BYTES=%d", 2*largest+(1<<20)),
+		fmt.Sprintf("KELVARD_MAX_INGEST_BYTES=%d", cfg.BatchRows*1024+(1<<20)),
 	})
 	if err != nil {
-		return Phase{}, err
+		return nil, err
 	}
-	defer srv.stop()
-	client := &http.Client{Timeout: 10 * time.Minute, Transport: &http.Transport{MaxIdleConnsPerHost: cfg.Senders, DisableCompression: true}}
+	return &httpPhase{srv: srv, secret: secret, media: media, senders: cfg.Senders,
+		client: &http.Client{Timeout: 10 * time.Minute, Transport: &http.Transport{MaxIdleConnsPerHost: cfg.Senders, DisableCompression: true}}}, nil
+}
+
+// send posts the bodies to /api/v1/readings from cfg.Senders goroutines
+// and adds the rows and time to ph.
+func (h *httpPhase) send(ctx context.Context, bodies [][]byte, ph *Phase) error {
 	post := func(ctx context.Context, body []byte) (int, error) {
-		req, err := http.NewRequestWithContext(ctx, http.MethodPost, srv.base+"/api/v1/readings", bytes.NewReader(body))
+		req, err := http.NewRequestWithContext(ctx, http.MethodPost, h.srv.base+"/api/v1/readings", bytes.NewReader(body))
 		if err != nil {
 			return 0, err
 		}
-		req.Header.Set("Content-Type", media)
-		req.Header.Set("Authorization", "Bearer "+secret)
-		resp, err := client.Do(req)
+		req.Header.Set("Content-Type", h.media)
+		req.Header.Set("Authorization", "Bearer "+h.secret)
+		resp, err := h.client.Do(req)
 		if err != nil {
 			return 0, err
 		}
@@ -350,25 +384,29 @@ func sendHTTP(ctx context.Context, cfg IngestConfig, dbURL, secret string, bodie
 		if err := json.Unmarshal(answer, &res); err != nil {
 			return 0, fmt.Errorf("answer %.200s: %w", answer, err)
 		}
-		if len(res.Rejected) > 0 || len(res.Conflicts) > 0 {
+		if len(res.Rejected) > 0 || len(res.Conflicts) > 0 || res.AlreadyPresent > 0 {
 			return 0, fmt.Errorf("batch not clean: %.500s", answer)
 		}
 		return res.Inserted, nil
 	}
 	start := time.Now()
-	total, err := fanOut(ctx, cfg.Senders, len(bodies), func(ctx context.Context, k int) (int, error) { return post(ctx, bodies[k]) })
-	elapsed := time.Since(start)
+	n, err := fanOut(ctx, h.senders, len(bodies),
+		func(ctx context.Context, k int) (int, error) { return post(ctx, bodies[k]) })
+	ph.Elapsed += time.Since(start)
+	ph.Rows += n
 	if err != nil {
-		return Phase{}, fmt.Errorf("%w (server log: %s)", err, srv.stderr)
+		return fmt.Errorf("%s: %w (server log: %s)", h.media, err, h.srv.stderr)
 	}
-	rss, cpu, err := srv.procStatus()
-	if err != nil {
-		return Phase{}, err
+	return nil
+}
+
+// finish reads the server's peak memory and CPU time and stops it.
+func (h *httpPhase) finish() error {
+	var err error
+	if h.peakRSS, h.cpu, err = h.srv.procStatus(); err != nil {
+		return err
 	}
-	if err := srv.stop(); err != nil {
-		return Phase{}, err
-	}
-	return Phase{Rows: total, Elapsed: elapsed, PeakRSS: rss, ServerCPU: cpu}, nil
+	return h.srv.stop()
 }
 
 // fanOut runs do for items 0…n-1 on workers goroutines, summing the counts
@@ -459,36 +497,57 @@ func (c *copySource) Values() ([]any, error) {
 
 func (c *copySource) Err() error { return nil }
 
-// copyDirect loads the batches into the schema's readings table with pgx
+// copyPhase loads batches into a schema's readings table with pgx
 // CopyFrom, one transaction a batch, from cfg.Senders connections.
-func copyDirect(ctx context.Context, cfg IngestConfig, dbURL string, batches [][]copyRow) (Phase, error) {
-	cols := append([]string{"drive_id", "at", "position_id"}, store.ReadingValueColumns()...)
-	conns := make(chan *pgx.Conn, cfg.Senders)
+type copyPhase struct {
+	conns   chan *pgx.Conn
+	senders int
+}
+
+func newCopyPhase(ctx context.Context, cfg IngestConfig, dbURL string) (*copyPhase, error) {
+	c := &copyPhase{conns: make(chan *pgx.Conn, cfg.Senders), senders: cfg.Senders}
 	for range cfg.Senders {
-		c, err := pgx.Connect(ctx, dbURL)
+		conn, err := pgx.Connect(ctx, dbURL)
 		if err != nil {
-			return Phase{}, fmt.Errorf("connect: %w", err)
+			c.close()
+			return nil, fmt.Errorf("connect: %w", err)
 		}
-		defer c.Close(context.Background())
-		conns <- c
+		c.conns <- conn
 	}
+	return c, nil
+}
+
+func (c *copyPhase) copy(ctx context.Context, batches [][]copyRow, ph *Phase) error {
+	cols := append([]string{"drive_id", "at", "position_id"}, store.ReadingValueColumns()...)
 	start := time.Now()
-	total, err := fanOut(ctx, cfg.Senders, len(batches), func(ctx context.Context, k int) (int, error) {
-		c := <-conns
-		defer func() { conns <- c }()
+	n, err := fanOut(ctx, c.senders, len(batches), func(ctx context.Context, k int) (int, error) {
+		conn := <-c.conns
+		defer func() { c.conns <- conn }()
 		var n int64
-		err := pgx.BeginFunc(ctx, c, func(tx pgx.Tx) error {
+		err := pgx.BeginFunc(ctx, conn, func(tx pgx.Tx) error {
 			var err error
 			n, err = tx.CopyFrom(ctx, pgx.Identifier{"readings"}, cols, &copySource{rows: batches[k]})
 			return err
 		})
 		return int(n), err
 	})
-	elapsed := time.Since(start)
+	ph.Elapsed += time.Since(start)
+	ph.Rows += n
 	if err != nil {
-		return Phase{}, err
+		return fmt.Errorf("COPY: %w", err)
 	}
-	return Phase{Rows: total, Elapsed: elapsed}, nil
+	return nil
+}
+
+func (c *copyPhase) close() {
+	for {
+		select {
+		case conn := <-c.conns:
+			conn.Close(context.Background())
+		default:
+			return
+		}
+	}
 }
 
 // checkCount makes sure the phase stored every reading.
