@@ -310,9 +310,10 @@ func (ps *positionSet) resolve(r *Reading, fixed *ingestPosition) (*ingestPositi
 
 // lookupPositions loads the positions the rows name (by tag or id, within
 // the principal's sites) and their installation history with each drive's
-// rated current: one query for the positions, one for the installations.
-// Each list of tags or ids travels as one parameter (an array on
-// PostgreSQL, a JSON array on SQLite), however long the batch.
+// rated current: one query for the positions (two when rows name some by
+// tag and some by id), one for the installations. Each list of tags or ids
+// travels as one parameter (an array on PostgreSQL, a JSON array on
+// SQLite), however long the batch.
 func (s *Store) lookupPositions(ctx context.Context, db *gorm.DB, rows []Reading, fixedID int64) (*positionSet, error) {
 	tagSet := map[string]struct{}{}
 	idSet := map[int64]struct{}{}
@@ -338,42 +339,56 @@ func (s *Store) lookupPositions(ctx context.Context, db *gorm.DB, rows []Reading
 	}
 	conn := db.Statement.ConnPool
 	ps := &positionSet{byID: map[int64]*ingestPosition{}, byTag: map[string][]*ingestPosition{}}
-
-	q := "SELECT p.id, p.site_id, p.tag, s.name FROM positions AS p JOIN sites AS s ON s.id = p.site_id WHERE (p.tag " +
-		s.inList() + " OR p.id " + s.inList() + ")"
-	tagArg, err := s.listArg(tags)
-	if err != nil {
-		return nil, err
-	}
-	idArg, err := s.listArg(ids)
-	if err != nil {
-		return nil, err
-	}
-	args := []any{tagArg, idArg}
-	if principal := PrincipalFrom(ctx); !principal.AllSites() {
-		sites, err := s.listArg(nonEmpty(principal.Sites))
+	principal := PrincipalFrom(ctx)
+	loadPositions := func(list any, typ, column string) error {
+		from, value, err := s.listJoin(typ)
 		if err != nil {
+			return err
+		}
+		arg, err := s.listArg(list)
+		if err != nil {
+			return err
+		}
+		q := "SELECT p.id, p.site_id, p.tag, s.name FROM " + from + " JOIN positions AS p ON p." + column + " = " + value +
+			" JOIN sites AS s ON s.id = p.site_id"
+		args := []any{arg}
+		if !principal.AllSites() {
+			sites, err := s.listArg(nonEmpty(principal.Sites))
+			if err != nil {
+				return err
+			}
+			q += " WHERE p.site_id " + s.inList()
+			args = append(args, sites)
+		}
+		rs, err := conn.QueryContext(ctx, s.rebind(q), args...)
+		if err != nil {
+			return fmt.Errorf("look up positions: %w", translate(err))
+		}
+		defer rs.Close()
+		for rs.Next() {
+			p := &ingestPosition{}
+			if err := rs.Scan(&p.ID, &p.SiteID, &p.Tag, &p.Site); err != nil {
+				return fmt.Errorf("look up positions: %w", err)
+			}
+			if _, seen := ps.byID[p.ID]; !seen {
+				ps.byID[p.ID] = p
+				ps.byTag[p.Tag] = append(ps.byTag[p.Tag], p)
+			}
+		}
+		if err := rs.Err(); err != nil {
+			return fmt.Errorf("look up positions: %w", translate(err))
+		}
+		return nil
+	}
+	if len(tags) > 0 {
+		if err := loadPositions(tags, "text", "tag"); err != nil {
 			return nil, err
 		}
-		q += " AND p.site_id " + s.inList()
-		args = append(args, sites)
 	}
-	rs, err := conn.QueryContext(ctx, s.rebind(q), args...)
-	if err != nil {
-		return nil, fmt.Errorf("look up positions: %w", translate(err))
-	}
-	for rs.Next() {
-		p := &ingestPosition{}
-		if err := rs.Scan(&p.ID, &p.SiteID, &p.Tag, &p.Site); err != nil {
-			rs.Close()
-			return nil, fmt.Errorf("look up positions: %w", err)
+	if len(ids) > 0 {
+		if err := loadPositions(ids, "bigint", "id"); err != nil {
+			return nil, err
 		}
-		ps.byID[p.ID] = p
-		ps.byTag[p.Tag] = append(ps.byTag[p.Tag], p)
-	}
-	rs.Close()
-	if err := rs.Err(); err != nil {
-		return nil, fmt.Errorf("look up positions: %w", translate(err))
 	}
 	for _, cands := range ps.byTag {
 		slices.SortFunc(cands, func(a, b *ingestPosition) int { return strings.Compare(a.Site, b.Site) })
@@ -390,9 +405,13 @@ func (s *Store) lookupPositions(ctx context.Context, db *gorm.DB, rows []Reading
 	if err != nil {
 		return nil, err
 	}
-	rs, err = conn.QueryContext(ctx, s.rebind(`SELECT i.position_id, i.drive_id, i.installed_at, i.removed_at, m.normal_duty_current_a
-		FROM installations AS i JOIN drives AS d ON d.id = i.drive_id JOIN drive_models AS m ON m.id = d.model_id
-		WHERE i.position_id `+s.inList()), foundArg)
+	from, value, err := s.listJoin("bigint")
+	if err != nil {
+		return nil, err
+	}
+	rs, err := conn.QueryContext(ctx, s.rebind(`SELECT i.position_id, i.drive_id, i.installed_at, i.removed_at, m.normal_duty_current_a
+		FROM `+from+` JOIN installations AS i ON i.position_id = `+value+`
+		JOIN drives AS d ON d.id = i.drive_id JOIN drive_models AS m ON m.id = d.model_id`), foundArg)
 	if err != nil {
 		return nil, fmt.Errorf("look up installations: %w", translate(err))
 	}
@@ -429,6 +448,22 @@ func (s *Store) inList() string {
 		return "= ANY(?)"
 	}
 	return "IN (SELECT value FROM json_each(?))"
+}
+
+// listJoin returns a FROM item that turns a list passed as one parameter
+// (see listArg) into rows, and the expression naming each value. Joining
+// it lets the database look each value up by index, where a long
+// "= ANY(array)" is tested element by element against every row.
+func (s *Store) listJoin(typ string) (from, value string, err error) {
+	switch typ {
+	case "text", "bigint":
+	default:
+		return "", "", fmt.Errorf("no list of %s", typ)
+	}
+	if s.dialect == Postgres {
+		return "unnest(?::" + typ + "[]) AS list(v)", "list.v", nil
+	}
+	return "json_each(?) AS list", "list.value", nil
 }
 
 // listArg passes a list as one parameter: an array on PostgreSQL, a JSON

@@ -115,45 +115,23 @@ func (s *server) terminate() error {
 	}
 }
 
-// procStatus reads the server's peak resident set size (VmHWM, bytes) and
-// the CPU time it has used.
-func (s *server) procStatus() (peakRSS int64, cpu time.Duration, err error) {
-	pid := s.cmd.Process.Pid
-	status, err := os.ReadFile(fmt.Sprintf("/proc/%d/status", pid))
+// peakRSS reads the server's peak resident set size (VmHWM) in bytes.
+func (s *server) peakRSS() (int64, error) {
+	status, err := os.ReadFile(fmt.Sprintf("/proc/%d/status", s.cmd.Process.Pid))
 	if err != nil {
-		return 0, 0, fmt.Errorf("read server status: %w", err)
+		return 0, fmt.Errorf("read server status: %w", err)
 	}
 	for _, line := range strings.Split(string(status), "\n") {
 		if v, ok := strings.CutPrefix(line, "VmHWM:"); ok {
 			f := strings.Fields(v)
 			if len(f) == 2 && f[1] == "kB" {
-				kb, err := strconv.ParseInt(f[0], 10, 64)
-				if err == nil {
-					peakRSS = kb << 10
+				if kb, err := strconv.ParseInt(f[0], 10, 64); err == nil {
+					return kb << 10, nil
 				}
 			}
 		}
 	}
-	if peakRSS == 0 {
-		return 0, 0, errors.New("server status shows no VmHWM")
-	}
-	stat, err := os.ReadFile(fmt.Sprintf("/proc/%d/stat", pid))
-	if err != nil {
-		return 0, 0, fmt.Errorf("read server stat: %w", err)
-	}
-	// Fields after the command name: state is field 3, utime 14, stime 15,
-	// in clock ticks (100 a second on Linux).
-	rest := string(stat)
-	if i := strings.LastIndexByte(rest, ')'); i >= 0 {
-		rest = rest[i+2:]
-	}
-	f := strings.Fields(rest)
-	if len(f) > 12 {
-		ut, _ := strconv.ParseInt(f[11], 10, 64)
-		st, _ := strconv.ParseInt(f[12], 10, 64)
-		cpu = time.Duration(ut+st) * 10 * time.Millisecond
-	}
-	return peakRSS, cpu, nil
+	return 0, errors.New("server status shows no VmHWM")
 }
 
 // tailBuffer keeps the last max bytes written to it.

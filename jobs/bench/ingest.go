@@ -72,10 +72,16 @@ type Phase struct {
 	Name    string
 	Rows    int
 	Elapsed time.Duration
-	// PeakRSS is the server's VmHWM (bytes) and ServerCPU the CPU time it
-	// used; both zero for COPY, which has no server.
-	PeakRSS   int64
-	ServerCPU time.Duration
+	// PeakRSS is the server's VmHWM (bytes); zero for COPY, which has no
+	// server.
+	PeakRSS int64
+	// CPU is the processor time the phase used while it ran.
+	CPU CPU
+}
+
+// CPUPerMillion is the phase's processor time per million readings.
+func (p Phase) CPUPerMillion() time.Duration {
+	return time.Duration(float64(p.CPU.Total()) * 1e6 / float64(p.Rows))
 }
 
 // RowsPerSecond is the phase's rate.
@@ -94,21 +100,36 @@ func (r IngestReport) CSVRatio() float64 { return r.CSV.RowsPerSecond() / r.Copy
 // JSONRatio is the JSON rate as a fraction of the COPY rate.
 func (r IngestReport) JSONRatio() float64 { return r.JSON.RowsPerSecond() / r.Copy.RowsPerSecond() }
 
+// CSVCPURatio is the COPY phase's CPU per reading divided by the CSV
+// phase's: the rate ratio a machine with nothing else to do would reach
+// when the processors are the limit.
+func (r IngestReport) CSVCPURatio() float64 {
+	return r.Copy.CPUPerMillion().Seconds() / r.CSV.CPUPerMillion().Seconds()
+}
+
+// JSONCPURatio is CSVCPURatio for the JSON phase.
+func (r IngestReport) JSONCPURatio() float64 {
+	return r.Copy.CPUPerMillion().Seconds() / r.JSON.CPUPerMillion().Seconds()
+}
+
 // Print writes the report as a small table.
 func (r IngestReport) Print(w io.Writer) {
 	m := r.Machine
 	fmt.Fprintf(w, "kelvard bench ingest: %d readings over %d positions, batches of %d rows, %d concurrent senders, %d rounds\n",
 		r.Readings, r.Positions, r.BatchRows, r.Senders, r.Rounds)
 	fmt.Fprintf(w, "machine: %d CPUs, %s, %s, load average %s at start\n\n", m.CPUs, m.CPUModel, m.GoVersion, m.LoadAverage)
-	fmt.Fprintf(w, "%-16s %12s %10s %9s %16s %11s\n", "phase", "rows/s", "seconds", "vs COPY", "server peak RSS", "server CPU")
+	fmt.Fprintf(w, "%-10s %9s %8s %8s | %-36s %8s | %s\n", "", "", "", "", "CPU seconds per million readings", "", "")
+	fmt.Fprintf(w, "%-10s %9s %8s %8s | %8s %8s %8s %8s %8s | %s\n",
+		"phase", "rows/s", "seconds", "vs COPY", "client", "server", "database", "total", "vs COPY", "server peak RSS")
 	for _, p := range []Phase{r.CSV, r.JSON, r.Copy} {
-		ratio, rss, cpu := "1.00", "-", "-"
+		per := func(d time.Duration) string { return fmt.Sprintf("%.2f", d.Seconds()*1e6/float64(p.Rows)) }
+		rss := "-"
 		if p.PeakRSS > 0 {
-			ratio = fmt.Sprintf("%.2f", p.RowsPerSecond()/r.Copy.RowsPerSecond())
 			rss = fmt.Sprintf("%.0f MB", float64(p.PeakRSS)/(1<<20))
-			cpu = fmt.Sprintf("%.1f s", p.ServerCPU.Seconds())
 		}
-		fmt.Fprintf(w, "%-16s %12.0f %10.2f %9s %16s %11s\n", p.Name, p.RowsPerSecond(), p.Elapsed.Seconds(), ratio, rss, cpu)
+		fmt.Fprintf(w, "%-10s %9.0f %8.2f %8.2f | %8s %8s %8s %8s %8.2f | %s\n", p.Name, p.RowsPerSecond(), p.Elapsed.Seconds(),
+			p.RowsPerSecond()/r.Copy.RowsPerSecond(), per(p.CPU.Client), per(p.CPU.Server), per(p.CPU.Database),
+			per(p.CPU.Total()), r.Copy.CPUPerMillion().Seconds()/p.CPUPerMillion().Seconds(), rss)
 	}
 	verdict := func(ok bool) string {
 		if ok {
@@ -117,10 +138,12 @@ func (r IngestReport) Print(w io.Writer) {
 		return "NOT met"
 	}
 	peak := max(r.CSV.PeakRSS, r.JSON.PeakRSS)
-	fmt.Fprintf(w, "\nCSV/COPY %.2f (target %.2f: %s); JSON/COPY %.2f (target %.2f: %s); server peak RSS %.0f MB (target under %d MB: %s)\n",
+	fmt.Fprintf(w, "\nrates:  CSV/COPY %.2f (target %.2f: %s); JSON/COPY %.2f (target %.2f: %s)\n",
 		r.CSVRatio(), TargetCSVRatio, verdict(r.CSVRatio() >= TargetCSVRatio),
-		r.JSONRatio(), TargetJSONRatio, verdict(r.JSONRatio() >= TargetJSONRatio),
-		float64(peak)/(1<<20), TargetPeakRSS>>20, verdict(peak < TargetPeakRSS))
+		r.JSONRatio(), TargetJSONRatio, verdict(r.JSONRatio() >= TargetJSONRatio))
+	fmt.Fprintf(w, "CPU:    CSV %.2f and JSON %.2f of COPY's cost per reading (the rate ratios when the processors are the only limit)\n",
+		r.CSVCPURatio(), r.JSONCPURatio())
+	fmt.Fprintf(w, "memory: server peak RSS %.0f MB (target under %d MB: %s)\n", float64(peak)/(1<<20), TargetPeakRSS>>20, verdict(peak < TargetPeakRSS))
 }
 
 // Ingest runs the ingest benchmark.
@@ -268,19 +291,31 @@ func Ingest(ctx context.Context, cfg IngestConfig) (IngestReport, error) {
 		}
 		steps := []struct {
 			schema string
+			server int
+			phase  *Phase
 			run    func() error
 		}{
-			{sch["csv"], func() error { return csvSrv.send(ctx, csvBodies, &rep.CSV) }},
-			{sch["json"], func() error { return jsonSrv.send(ctx, jsonBodies, &rep.JSON) }},
-			{sch["copy"], func() error { return copier.copy(ctx, copies, &rep.Copy) }},
+			{sch["csv"], csvSrv.srv.cmd.Process.Pid, &rep.CSV, func() error { return csvSrv.send(ctx, csvBodies, &rep.CSV) }},
+			{sch["json"], jsonSrv.srv.cmd.Process.Pid, &rep.JSON, func() error { return jsonSrv.send(ctx, jsonBodies, &rep.JSON) }},
+			{sch["copy"], 0, &rep.Copy, func() error { return copier.copy(ctx, copies, &rep.Copy) }},
 		}
 		if r%2 == 1 {
 			slices.Reverse(steps)
 		}
 		for _, st := range steps {
+			meter := cpuMeter{db: admin, appName: st.schema, server: st.server}
+			before, err := meter.snapshot(ctx)
+			if err != nil {
+				return rep, err
+			}
 			if err := st.run(); err != nil {
 				return rep, err
 			}
+			after, err := meter.snapshot(ctx)
+			if err != nil {
+				return rep, err
+			}
+			st.phase.CPU.add(after.since(before))
 			if err := settle(st.schema); err != nil {
 				return rep, err
 			}
@@ -291,8 +326,7 @@ func Ingest(ctx context.Context, cfg IngestConfig) (IngestReport, error) {
 			return rep, err
 		}
 	}
-	rep.CSV.PeakRSS, rep.CSV.ServerCPU = csvSrv.peakRSS, csvSrv.cpu
-	rep.JSON.PeakRSS, rep.JSON.ServerCPU = jsonSrv.peakRSS, jsonSrv.cpu
+	rep.CSV.PeakRSS, rep.JSON.PeakRSS = csvSrv.peakRSS, jsonSrv.peakRSS
 	rep.CSV.Name, rep.JSON.Name, rep.Copy.Name = "HTTP CSV", "HTTP JSON", "pgx COPY"
 	for k, want := range map[string]int{"csv": cfg.Readings, "json": cfg.Readings, "copy": cfg.Readings} {
 		if err := checkCount(ctx, admin, sch[k], want); err != nil {
@@ -338,7 +372,6 @@ type httpPhase struct {
 	media   string
 	senders int
 	peakRSS int64
-	cpu     time.Duration
 }
 
 // newHTTPPhase starts a server on the schema.
@@ -400,10 +433,10 @@ func (h *httpPhase) send(ctx context.Context, bodies [][]byte, ph *Phase) error 
 	return nil
 }
 
-// finish reads the server's peak memory and CPU time and stops it.
+// finish reads the server's peak memory and stops it.
 func (h *httpPhase) finish() error {
 	var err error
-	if h.peakRSS, h.cpu, err = h.srv.procStatus(); err != nil {
+	if h.peakRSS, err = h.srv.peakRSS(); err != nil {
 		return err
 	}
 	return h.srv.stop()
@@ -570,6 +603,9 @@ func schemaURL(raw, schema string) (string, error) {
 	}
 	q := u.Query()
 	q.Set("search_path", schema)
+	// The schema names the phase's connections too, so its database
+	// backends can be found and their CPU time read.
+	q.Set("application_name", schema)
 	u.RawQuery = q.Encode()
 	return u.String(), nil
 }

@@ -38,6 +38,14 @@ func TestIngestBenchmark(t *testing.T) {
 		if p.Rows != 3000 || p.Elapsed <= 0 || p.RowsPerSecond() <= 0 {
 			t.Errorf("phase %s: %d rows in %v", p.Name, p.Rows, p.Elapsed)
 		}
+		// /proc counts CPU in hundredths of a second, too coarse to
+		// insist on for a run this small; it must not go backwards.
+		if p.CPU.Client < 0 || p.CPU.Server < 0 || p.CPU.Database < 0 || (p.PeakRSS == 0 && p.CPU.Server != 0) {
+			t.Errorf("phase %s CPU %+v", p.Name, p.CPU)
+		}
+	}
+	if rep.CSV.CPU.Total()+rep.JSON.CPU.Total()+rep.Copy.CPU.Total() <= 0 {
+		t.Error("no CPU time measured at all")
 	}
 	if rep.CSV.PeakRSS <= 0 || rep.JSON.PeakRSS <= 0 || rep.Copy.PeakRSS != 0 {
 		t.Errorf("peak RSS: CSV %d, JSON %d, COPY %d", rep.CSV.PeakRSS, rep.JSON.PeakRSS, rep.Copy.PeakRSS)
@@ -47,7 +55,7 @@ func TestIngestBenchmark(t *testing.T) {
 	}
 	var out bytes.Buffer
 	rep.Print(&out)
-	for _, want := range []string{"HTTP CSV", "HTTP JSON", "pgx COPY", "CSV/COPY", "JSON/COPY", "peak RSS", rep.Machine.GoVersion} {
+	for _, want := range []string{"HTTP CSV", "HTTP JSON", "pgx COPY", "CSV/COPY", "JSON/COPY", "peak RSS", "CPU seconds per million", rep.Machine.GoVersion} {
 		if !strings.Contains(out.String(), want) {
 			t.Errorf("report lacks %q:\n%s", want, out.String())
 		}
