@@ -374,20 +374,44 @@ func (d *jsonScanner) number() ([]byte, error) {
 func (d *jsonScanner) str() ([]byte, error) {
 	d.pos++ // opening quote
 	start := d.pos
+	ascii := true
 	for d.pos < len(d.buf) {
 		c := d.buf[d.pos]
 		switch {
 		case c == '"':
 			d.pos++
-			return d.buf[start : d.pos-1], nil
+			out := d.buf[start : d.pos-1]
+			if !ascii && !utf8.Valid(out) {
+				return d.validUTF8(out), nil
+			}
+			return out, nil
 		case c == '\\':
 			return d.strEscaped(start)
 		case c < 0x20:
 			return nil, d.syntax("control character in a string")
+		case c >= utf8.RuneSelf:
+			ascii = false
 		}
 		d.pos++
 	}
 	return nil, d.syntax("unterminated string")
+}
+
+// validUTF8 replaces each byte of b that is not part of valid UTF-8 with
+// U+FFFD, as encoding/json does. The result lives in scratch.
+func (d *jsonScanner) validUTF8(b []byte) []byte {
+	out := d.scratch[:0]
+	for len(b) > 0 {
+		r, size := utf8.DecodeRune(b)
+		if r == utf8.RuneError && size == 1 {
+			out = utf8.AppendRune(out, utf8.RuneError)
+		} else {
+			out = append(out, b[:size]...)
+		}
+		b = b[size:]
+	}
+	d.scratch = out
+	return out
 }
 
 // strEscaped finishes a string that holds escapes.
@@ -398,6 +422,13 @@ func (d *jsonScanner) strEscaped(start int) ([]byte, error) {
 		switch {
 		case c == '"':
 			d.pos++
+			if !utf8.Valid(out) {
+				// Only raw bytes can be invalid; escapes always encode
+				// valid runes.
+				d.scratch = out
+				fixed := append([]byte(nil), out...)
+				return d.validUTF8(fixed), nil
+			}
 			d.scratch = out
 			return out, nil
 		case c < 0x20:
