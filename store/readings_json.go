@@ -201,7 +201,7 @@ func (d *jsonScanner) field(rd *Reading, col readingColumn, fail func(readingCol
 		if err != nil {
 			return err
 		}
-		v := d.names.bytes(bytes.TrimSpace(s))
+		v := intern(d.names, trimSpace(s))
 		if col == colSite {
 			rd.Site = v
 		} else {

@@ -127,24 +127,6 @@ func (s *floatSlab) put(v float64) *float64 {
 // interner keeps one copy of each site name and tag of a batch.
 type interner map[string]string
 
-func (in interner) bytes(b []byte) string {
-	if s, ok := in[string(b)]; ok {
-		return s
-	}
-	s := string(b)
-	in[s] = s
-	return s
-}
-
-func (in interner) string(v string) string {
-	if s, ok := in[v]; ok {
-		return s
-	}
-	s := strings.Clone(v)
-	in[s] = s
-	return s
-}
-
 // setValue stores measurement column c of r.
 func (r *Reading) setValue(c readingColumn, v *float64) {
 	*r.valueSlots()[c-colValue0] = v
