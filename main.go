@@ -50,6 +50,7 @@ Commands:
   import    import a register CSV file: import KIND FILE [--partial]
   token     make, list and revoke API tokens
   assess    run one assessment now (--full recomputes every drive)
+  bench     measure the server on this machine (bench ingest)
   version   print the version
 
 Every flag can also be set by an environment variable named in its help,
@@ -76,6 +77,8 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 		err = cmdAssess(ctx, rest, getenv, stdout, stderr)
 	case "import":
 		err = cmdImport(ctx, rest, getenv, os.Stdin, stdout, stderr)
+	case "bench":
+		err = cmdBench(ctx, rest, getenv, stdout, stderr)
 	case "version":
 		fmt.Fprintln(stdout, "kelvard", buildVersion())
 	case "help", "-h", "--help":
@@ -178,6 +181,10 @@ func (c *common) open(ctx context.Context, log *slog.Logger) (*store.Store, erro
 		st.Close()
 		return nil, err
 	}
+	if err := st.PrepareReadingPartitions(ctx); err != nil {
+		st.Close()
+		return nil, err
+	}
 	log.Info("database ready", slog.String("dialect", string(st.Dialect())), slog.Int64("schema_version", v))
 	return st, nil
 }
@@ -198,6 +205,10 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	rateLimit := fs.Float64("rate-limit", envFloat(getenv, "KELVARD_RATE_LIMIT", 100),
 		"requests per second each token may make on this replica; 0 turns the limit off (KELVARD_RATE_LIMIT)")
 	demoFleet := fs.Bool("demo", false, "load an invented demo fleet into an empty store, assess it, and print an admin token")
+	limits, err := ingestLimitFlags(fs, getenv)
+	if err != nil {
+		return err
+	}
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -230,16 +241,14 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 		}
 	}
 	notifier := jobs.NewNotifier(st, *webhook, *webhookSecret, log)
-	if err := st.PrepareReadingPartitions(ctx); err != nil {
-		return err
-	}
 	sched, err := jf.build(st, log, jobsFor(st, log, jobOptions{Notifier: notifier, RawRetention: *rawRetention}))
 	if err != nil {
 		return err
 	}
 	defer jf.stop(sched, log) // before the store closes: waits for a running job
 	cfg := api.Config{Version: buildVersion(), TrustedProxies: splitList(*proxies), MaxImportBytes: importLimit, Jobs: sched,
-		MetricsToken: *metricsToken, JobStats: jobStats(st), RateLimit: *rateLimit}
+		MetricsToken: *metricsToken, JobStats: jobStats(st), RateLimit: *rateLimit,
+		MaxIngestBytes: limits.bytes, MaxIngestRows: limits.rows}
 	var demoToken string
 	if *demoFleet {
 		t, secret, err := st.CreateToken(ctx, store.NewToken{Name: "demo admin", Role: store.RoleAdmin})

@@ -270,7 +270,7 @@ func TestImportCommand(t *testing.T) {
 				}
 			}
 			var o, e bytes.Buffer
-			if code := run(context.Background(), []string{"import", "readings", sites}, env, &o, &e); code != 1 || !strings.Contains(e.String(), "not available yet") {
+			if code := run(context.Background(), []string{"import", "readings", sites}, env, &o, &e); code != 1 || !strings.Contains(o.String()+e.String(), "not a reading column") {
 				t.Errorf("import readings: exit %d: %s", code, e.String())
 			}
 			if code := run(context.Background(), []string{"import", "sites", filepath.Join(dir, "missing.csv")}, env, &o, &e); code != 1 {

@@ -119,7 +119,7 @@ func TestCSVImportAndExport(t *testing.T) {
 			{http.MethodPost, "/api/v1/import/sites?dry=true", "text/csv", http.StatusBadRequest},
 			{http.MethodPost, "/api/v1/import/sites", "application/json", http.StatusUnsupportedMediaType},
 			{http.MethodPost, "/api/v1/import/sites", "text/csv; charset=latin1", http.StatusUnsupportedMediaType},
-			{http.MethodPost, "/api/v1/import/readings", "text/csv", http.StatusNotImplemented},
+			{http.MethodPost, "/api/v1/import/readings", "text/csv", http.StatusUnprocessableEntity}, // a sites file is not readings
 			{http.MethodGet, "/api/v1/export/readings", "", http.StatusNotImplemented},
 		} {
 			a := h.sendCSV(c.method, c.path, planner, c.ctype, sitesCSV)

@@ -197,7 +197,7 @@ func (s *Server) ingestBody(c *gin.Context, body []byte, media string, opts stor
 		err   error
 	)
 	if media == csvMedia {
-		batch, err = store.ParseReadingsCSV(bytes.NewReader(body), popts)
+		batch, err = store.ParseReadingsCSV(body, popts)
 	} else {
 		batch, err = store.ParseReadingsJSON(body, popts)
 	}

@@ -246,6 +246,16 @@ func TestPostReadingsRefusals(t *testing.T) {
 		if a.status != http.StatusUnprocessableEntity || !fieldsOf(a.problem(t)).has("position") {
 			t.Errorf("row naming another position: %d %s", a.status, a.body)
 		}
+		// A token limited to another site does not see the position.
+		other := h.buildFleet("b")
+		limited := h.token(store.RoleIngest, []int64{other.site})
+		a = h.send(http.MethodPost, "/api/v1/readings", limited, "application/json", []byte(`[{"position":"DP-a","at":"2024-05-01T07:00:00Z"}]`))
+		if a.status != http.StatusUnprocessableEntity {
+			t.Fatalf("position outside the token's sites: %d %s", a.status, a.body)
+		}
+		if p := a.problem(t); len(p.Errors) != 1 || p.Errors[0].Field != "position" || !strings.Contains(p.Errors[0].Reason, `"DP-a"`) {
+			t.Errorf("position outside the token's sites: %+v", p.Errors)
+		}
 		// A viewer may read but not post.
 		viewer := h.token(store.RoleViewer, nil)
 		if a := h.send(http.MethodPost, "/api/v1/readings", viewer, "application/json", []byte(`[]`)); a.status != http.StatusForbidden {

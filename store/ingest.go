@@ -2,6 +2,8 @@ package store
 
 import (
 	"context"
+	"database/sql"
+	"encoding/json"
 	"fmt"
 	"slices"
 	"sort"
@@ -79,7 +81,8 @@ type plannedRow struct {
 type ingestPlan struct {
 	rows []Reading
 	good []plannedRow
-	// byKey maps a good row's natural key to its index in good.
+	// byKey maps a good row's natural key to its index in good; made on
+	// first use by keyIndex.
 	byKey map[readingKey]int
 	// bad lists every bad field, the parser's refusals included.
 	bad []FieldError
@@ -101,7 +104,7 @@ type ingestPosition struct {
 	ID     int64
 	SiteID int64
 	Tag    string
-	Site   string `gorm:"column:site_name"`
+	Site   string
 	stays  []stay
 }
 
@@ -111,7 +114,7 @@ type stay struct {
 	DriveID     int64
 	InstalledAt time.Time
 	RemovedAt   *time.Time
-	RatedA      float64 `gorm:"column:rated_a"`
+	RatedA      float64
 }
 
 // stayAt returns the installation covering t, if any.
@@ -126,10 +129,6 @@ func (p *ingestPosition) stayAt(t time.Time) (stay, bool) {
 	}
 	return st, true
 }
-
-// lookupChunk bounds the ids or tags in one IN list, well inside both
-// databases' limits on bound parameters.
-const lookupChunk = 1000
 
 // plan checks a batch and resolves every row's position and drive. db is
 // the handle the lookups run on (the write transaction on SQLite).
@@ -173,7 +172,6 @@ func (s *Store) plan(ctx context.Context, db *gorm.DB, rows []Reading, opts Inge
 	}
 
 	p.good = make([]plannedRow, 0, len(rows))
-	p.byKey = make(map[readingKey]int, len(rows))
 	// seen holds the row number of every resolved row by natural key, bad
 	// rows included, so a repeat is reported whatever became of the first.
 	seen := make(map[readingKey]int, len(rows))
@@ -212,7 +210,6 @@ func (s *Store) plan(ctx context.Context, db *gorm.DB, rows []Reading, opts Inge
 		if badRow[i] {
 			continue
 		}
-		p.byKey[key] = len(p.good)
 		p.good = append(p.good, plannedRow{idx: i, driveID: st.DriveID, positionID: pos.ID, at: at})
 		if m := monthOf(at); m != lastMonth {
 			lastMonth = m
@@ -223,6 +220,18 @@ func (s *Store) plan(ctx context.Context, db *gorm.DB, rows []Reading, opts Inge
 	}
 	slices.SortStableFunc(p.bad, func(a, b FieldError) int { return a.Row - b.Row })
 	return p, nil
+}
+
+// keyIndex returns the map from a good row's natural key to its index in
+// good.
+func (p *ingestPlan) keyIndex() map[readingKey]int {
+	if p.byKey == nil {
+		p.byKey = make(map[readingKey]int, len(p.good))
+		for j, g := range p.good {
+			p.byKey[readingKey{g.driveID, g.at.UnixMicro()}] = j
+		}
+	}
+	return p.byKey
 }
 
 // refuse returns the validation error of a plan with bad rows and no
@@ -300,9 +309,11 @@ func (ps *positionSet) resolve(r *Reading, fixed *ingestPosition) (*ingestPositi
 }
 
 // lookupPositions loads the positions the rows name (by tag or id, within
-// the principal's sites) and their installation history, in one query for
-// positions and one for installations (each split only past lookupChunk
-// distinct values).
+// the principal's sites) and their installation history with each drive's
+// rated current: one query for the positions (two when rows name some by
+// tag and some by id), one for the installations. Each list of tags or ids
+// travels as one parameter (an array on PostgreSQL, a JSON array on
+// SQLite), however long the batch.
 func (s *Store) lookupPositions(ctx context.Context, db *gorm.DB, rows []Reading, fixedID int64) (*positionSet, error) {
 	tagSet := map[string]struct{}{}
 	idSet := map[int64]struct{}{}
@@ -318,64 +329,154 @@ func (s *Store) lookupPositions(ctx context.Context, db *gorm.DB, rows []Reading
 			}
 		}
 	}
+	tags := make([]string, 0, len(tagSet))
+	for t := range tagSet {
+		tags = append(tags, t)
+	}
+	ids := make([]int64, 0, len(idSet))
+	for id := range idSet {
+		ids = append(ids, id)
+	}
+	conn := db.Statement.ConnPool
 	ps := &positionSet{byID: map[int64]*ingestPosition{}, byTag: map[string][]*ingestPosition{}}
 	principal := PrincipalFrom(ctx)
-	load := func(column string, values []any) error {
-		for start := 0; start < len(values); start += lookupChunk {
-			chunk := values[start:min(start+lookupChunk, len(values))]
-			q := db.Table("positions AS p").Select("p.id, p.site_id, p.tag, s.name AS site_name").
-				Joins("JOIN sites AS s ON s.id = p.site_id").Where("p."+column+" IN ?", chunk)
-			if !principal.AllSites() {
-				q = q.Where("p.site_id IN ?", nonEmpty(principal.Sites))
+	loadPositions := func(list any, typ, column string) error {
+		from, value, err := s.listJoin(typ)
+		if err != nil {
+			return err
+		}
+		arg, err := s.listArg(list)
+		if err != nil {
+			return err
+		}
+		q := "SELECT p.id, p.site_id, p.tag, s.name FROM " + from + " JOIN positions AS p ON p." + column + " = " + value +
+			" JOIN sites AS s ON s.id = p.site_id"
+		args := []any{arg}
+		if !principal.AllSites() {
+			sites, err := s.listArg(nonEmpty(principal.Sites))
+			if err != nil {
+				return err
 			}
-			var found []*ingestPosition
-			if err := q.Find(&found).Error; err != nil {
-				return fmt.Errorf("look up positions: %w", translate(err))
+			q += " WHERE p.site_id " + s.inList()
+			args = append(args, sites)
+		}
+		rs, err := conn.QueryContext(ctx, s.rebind(q), args...)
+		if err != nil {
+			return fmt.Errorf("look up positions: %w", translate(err))
+		}
+		defer rs.Close()
+		for rs.Next() {
+			p := &ingestPosition{}
+			if err := rs.Scan(&p.ID, &p.SiteID, &p.Tag, &p.Site); err != nil {
+				return fmt.Errorf("look up positions: %w", err)
 			}
-			for _, p := range found {
-				if _, seen := ps.byID[p.ID]; !seen {
-					ps.byID[p.ID] = p
-					ps.byTag[p.Tag] = append(ps.byTag[p.Tag], p)
-				}
+			if _, seen := ps.byID[p.ID]; !seen {
+				ps.byID[p.ID] = p
+				ps.byTag[p.Tag] = append(ps.byTag[p.Tag], p)
 			}
+		}
+		if err := rs.Err(); err != nil {
+			return fmt.Errorf("look up positions: %w", translate(err))
 		}
 		return nil
 	}
-	if err := load("tag", setValues(tagSet)); err != nil {
-		return nil, err
+	if len(tags) > 0 {
+		if err := loadPositions(tags, "text", "tag"); err != nil {
+			return nil, err
+		}
 	}
-	if err := load("id", setValues(idSet)); err != nil {
-		return nil, err
+	if len(ids) > 0 {
+		if err := loadPositions(ids, "bigint", "id"); err != nil {
+			return nil, err
+		}
 	}
 	for _, cands := range ps.byTag {
 		slices.SortFunc(cands, func(a, b *ingestPosition) int { return strings.Compare(a.Site, b.Site) })
 	}
-
-	ids := make([]any, 0, len(ps.byID))
-	for id := range ps.byID {
-		ids = append(ids, id)
+	if len(ps.byID) == 0 {
+		return ps, nil
 	}
-	for start := 0; start < len(ids); start += lookupChunk {
-		chunk := ids[start:min(start+lookupChunk, len(ids))]
-		var stays []stay
-		err := db.Table("installations AS i").
-			Select("i.position_id, i.drive_id, i.installed_at, i.removed_at, m.normal_duty_current_a AS rated_a").
-			Joins("JOIN drives AS d ON d.id = i.drive_id").Joins("JOIN drive_models AS m ON m.id = d.model_id").
-			Where("i.position_id IN ?", chunk).Find(&stays).Error
-		if err != nil {
-			return nil, fmt.Errorf("look up installations: %w", translate(err))
+
+	found := make([]int64, 0, len(ps.byID))
+	for id := range ps.byID {
+		found = append(found, id)
+	}
+	foundArg, err := s.listArg(found)
+	if err != nil {
+		return nil, err
+	}
+	from, value, err := s.listJoin("bigint")
+	if err != nil {
+		return nil, err
+	}
+	rs, err := conn.QueryContext(ctx, s.rebind(`SELECT i.position_id, i.drive_id, i.installed_at, i.removed_at, m.normal_duty_current_a
+		FROM `+from+` JOIN installations AS i ON i.position_id = `+value+`
+		JOIN drives AS d ON d.id = i.drive_id JOIN drive_models AS m ON m.id = d.model_id`), foundArg)
+	if err != nil {
+		return nil, fmt.Errorf("look up installations: %w", translate(err))
+	}
+	defer rs.Close()
+	for rs.Next() {
+		var (
+			st      stay
+			removed sql.NullTime
+		)
+		if err := rs.Scan(&st.PositionID, &st.DriveID, &st.InstalledAt, &removed, &st.RatedA); err != nil {
+			return nil, fmt.Errorf("look up installations: %w", err)
 		}
-		for _, st := range stays {
-			st.InstalledAt = utc(st.InstalledAt)
-			st.RemovedAt = utcPtr(st.RemovedAt)
-			p := ps.byID[st.PositionID]
-			p.stays = append(p.stays, st)
+		st.InstalledAt = utc(st.InstalledAt)
+		if removed.Valid {
+			r := utc(removed.Time)
+			st.RemovedAt = &r
 		}
+		p := ps.byID[st.PositionID]
+		p.stays = append(p.stays, st)
+	}
+	if err := rs.Err(); err != nil {
+		return nil, fmt.Errorf("look up installations: %w", translate(err))
 	}
 	for _, p := range ps.byID {
 		slices.SortFunc(p.stays, func(a, b stay) int { return a.InstalledAt.Compare(b.InstalledAt) })
 	}
 	return ps, nil
+}
+
+// inList is the condition that a value is in a list passed as one
+// parameter (see listArg).
+func (s *Store) inList() string {
+	if s.dialect == Postgres {
+		return "= ANY(?)"
+	}
+	return "IN (SELECT value FROM json_each(?))"
+}
+
+// listJoin returns a FROM item that turns a list passed as one parameter
+// (see listArg) into rows, and the expression naming each value. Joining
+// it lets the database look each value up by index, where a long
+// "= ANY(array)" is tested element by element against every row.
+func (s *Store) listJoin(typ string) (from, value string, err error) {
+	switch typ {
+	case "text", "bigint":
+	default:
+		return "", "", fmt.Errorf("no list of %s", typ)
+	}
+	if s.dialect == Postgres {
+		return "unnest(?::" + typ + "[]) AS list(v)", "list.v", nil
+	}
+	return "json_each(?) AS list", "list.value", nil
+}
+
+// listArg passes a list as one parameter: an array on PostgreSQL, a JSON
+// array on SQLite.
+func (s *Store) listArg(list any) (any, error) {
+	if s.dialect == Postgres {
+		return list, nil
+	}
+	b, err := json.Marshal(list)
+	if err != nil {
+		return nil, fmt.Errorf("encode a lookup list: %w", err)
+	}
+	return string(b), nil
 }
 
 // nonEmpty keeps an IN list valid when a principal sees no site at all.
@@ -384,14 +485,6 @@ func nonEmpty(ids []int64) []int64 {
 		return []int64{0}
 	}
 	return ids
-}
-
-func setValues[K comparable](set map[K]struct{}) []any {
-	out := make([]any, 0, len(set))
-	for k := range set {
-		out = append(out, k)
-	}
-	return out
 }
 
 // monthOf numbers the UTC month of t: year*12 + month - 1.
@@ -430,7 +523,7 @@ func (p *ingestPlan) result(inserted int, conflicts []Conflict, opts IngestOptio
 // conflict builds the report of a posted row whose key is stored with
 // other values; stored is the row as the database holds it.
 func (p *ingestPlan) conflict(key readingKey, stored *Reading, storedPosition int64) (Conflict, bool) {
-	j, ok := p.byKey[key]
+	j, ok := p.keyIndex()[key]
 	if !ok {
 		return Conflict{}, false
 	}

@@ -2,11 +2,13 @@ package store
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/stdlib"
 )
 
@@ -15,20 +17,34 @@ import (
 // because making a partition locks the whole readings table), and then one
 // transaction on a pgx connection taken from the pool GORM holds:
 //
-//  1. COPY the rows into a temporary staging table (ON COMMIT DROP);
-//  2. one statement: INSERT … SELECT from staging ON CONFLICT DO NOTHING
-//     RETURNING the keys inserted, counted per drive, and the watermark
-//     update of every drive whose earliest new reading lies at or before
-//     its assessed_to;
-//  3. only when some rows were not inserted: one query that joins staging
-//     with readings and returns the stored rows whose values differ (the
-//     conflicts); the rest were already present.
+//  1. one query finds the drives of the batch that already have a stored
+//     reading between their first and last reading in the batch: only
+//     their rows can meet a stored reading (a drive whose readings in the
+//     batch all come after the latest this process stored for it is not
+//     asked about; see highWater);
+//  2. the rows of every other drive are COPYed straight into readings, and
+//     one UPDATE lowers recompute_from of the drives among them that got a
+//     reading at or before their assessed_to;
+//  3. the rows of the overlapping drives are COPYed into a temporary
+//     staging table (ON COMMIT DROP), then one statement inserts them with
+//     INSERT … SELECT … ON CONFLICT DO NOTHING RETURNING, counts them and
+//     updates the watermarks, and, when some were not inserted, one query
+//     joins staging with readings and returns the stored rows that differ
+//     (the conflicts); the rest were already present.
+//
+// Why two paths: on the reference machine a batch of 10 000 readings costs
+// PostgreSQL 54 ms as a COPY into readings, but 24 ms as a COPY into staging
+// plus 79 ms for the insert-select with its conflict check (speculative
+// insertion row by row). A stream of new readings, the usual case, never
+// overlaps what is stored, so it takes the direct path and runs near COPY
+// speed; a replay or a late fill takes the staging path and gets its exact
+// accounting. Should another transaction store one of the same readings
+// between the overlap query and the direct COPY, the COPY fails on the
+// primary key, the transaction rolls back and is tried again, and the
+// overlap query then sends those rows through staging.
 
 // readingColumnList is the column list of readings in table order.
 var readingColumnList = "drive_id, at, position_id, " + strings.Join(readingValueNames[:], ", ")
-
-// readingCopyColumns names the COPY columns in table order.
-var readingCopyColumns = append([]string{"drive_id", "at", "position_id"}, readingValueNames[:]...)
 
 const createStagingSQL = "CREATE TEMP TABLE readings_staging (LIKE readings) ON COMMIT DROP"
 
@@ -80,21 +96,75 @@ func (s *Store) ingestPostgres(ctx context.Context, rows []Reading, opts IngestO
 		inserted  int
 		conflicts []Conflict
 	)
+	useHints := true
 	for attempt := 0; attempt < 4; attempt++ {
-		inserted, conflicts, err = s.writePostgres(ctx, p)
-		if err == nil || !retryable(err) {
+		inserted, conflicts, err = s.writePostgres(ctx, p, useHints)
+		if err == nil || !(retryable(err) || uniqueViolation(err)) {
 			break
+		}
+		if uniqueViolation(err) {
+			// A reading was stored meanwhile, or a hint was wrong: ask
+			// the database about every drive from now on.
+			s.ingest.high.forget(spans(p.good))
+			useHints = false
 		}
 	}
 	if err != nil {
 		return IngestResult{}, translate(err)
 	}
+	s.ingest.high.record(spans(p.good))
 	return p.result(inserted, conflicts, opts), nil
+}
+
+// indexProbesOnlySQL makes every lookup into readings in the write
+// transaction a primary-key probe. Statistics of a young partition (a new
+// month, a first load) say it is nearly empty, and the planner then hashes
+// or scans the whole partition for every batch, which grows with the
+// table: measured on a first load of a million readings, the overlap query
+// went from 5 ms to seconds a batch. The options last until the
+// transaction ends.
+const indexProbesOnlySQL = "SET LOCAL enable_seqscan = off; SET LOCAL enable_hashjoin = off; SET LOCAL enable_mergejoin = off"
+
+// overlapSQL returns the drives of a batch with a stored reading between
+// their first and last reading in the batch.
+const overlapSQL = `SELECT k.drive_id FROM unnest($1::bigint[], $2::timestamptz[], $3::timestamptz[]) AS k(drive_id, lo, hi)
+	WHERE EXISTS (SELECT 1 FROM readings AS r WHERE r.drive_id = k.drive_id AND r.at >= k.lo AND r.at <= k.hi)`
+
+// markDirectSQL lowers recompute_from for drives whose earliest new reading
+// lies at or before their assessed_to.
+const markDirectSQL = `UPDATE drive_watermarks AS w SET recompute_from = LEAST(w.recompute_from, f.first_at)
+	FROM unnest($1::bigint[], $2::timestamptz[]) AS f(drive_id, first_at)
+	WHERE w.drive_id = f.drive_id AND f.first_at <= w.assessed_to`
+
+// driveSpan is the time span of one drive's rows in a batch.
+type driveSpan struct {
+	lo, hi time.Time
+}
+
+// spans returns each drive's first and last reading time in rows.
+func spans(rows []plannedRow) map[int64]driveSpan {
+	out := map[int64]driveSpan{}
+	for i := range rows {
+		g := &rows[i]
+		sp, ok := out[g.driveID]
+		if !ok {
+			out[g.driveID] = driveSpan{g.at, g.at}
+			continue
+		}
+		if g.at.Before(sp.lo) {
+			sp.lo = g.at
+		}
+		if g.at.After(sp.hi) {
+			sp.hi = g.at
+		}
+		out[g.driveID] = sp
+	}
+	return out
 }
 
 // writePostgres runs the write transaction on a pgx connection from the
 // pool.
-func (s *Store) writePostgres(ctx context.Context, p *ingestPlan) (int, []Conflict, error) {
+func (s *Store) writePostgres(ctx context.Context, p *ingestPlan, useHints bool) (int, []Conflict, error) {
 	conn, err := s.sqlDB.Conn(ctx)
 	if err != nil {
 		return 0, nil, fmt.Errorf("take a connection: %w", err)
@@ -110,27 +180,88 @@ func (s *Store) writePostgres(ctx context.Context, p *ingestPlan) (int, []Confli
 			return fmt.Errorf("connection is %T, not pgx", driverConn)
 		}
 		return pgx.BeginFunc(ctx, sc.Conn(), func(tx pgx.Tx) error {
+			inserted, conflicts = 0, nil
+			if _, err := tx.Exec(ctx, indexProbesOnlySQL, pgx.QueryExecModeSimpleProtocol); err != nil {
+				return fmt.Errorf("set planner options: %w", err)
+			}
+			sp := spans(p.good)
+			drives := make([]int64, 0, len(sp))
+			los := make([]time.Time, 0, len(sp))
+			his := make([]time.Time, 0, len(sp))
+			for d, x := range sp {
+				if useHints && s.ingest.high.clearAfter(d, x.lo) {
+					continue
+				}
+				drives, los, his = append(drives, d), append(los, x.lo), append(his, x.hi)
+			}
+			var overlapping []int64
+			if len(drives) > 0 {
+				rows, err := tx.Query(ctx, overlapSQL, pgx.QueryExecModeExec, drives, los, his)
+				if err != nil {
+					return fmt.Errorf("look for stored readings in the batch's span: %w", err)
+				}
+				if overlapping, err = pgx.CollectRows(rows, pgx.RowTo[int64]); err != nil {
+					return fmt.Errorf("look for stored readings in the batch's span: %w", err)
+				}
+			}
+			direct, staged := p.good, []plannedRow(nil)
+			if len(overlapping) > 0 {
+				over := make(map[int64]bool, len(overlapping))
+				for _, d := range overlapping {
+					over[d] = true
+				}
+				direct = make([]plannedRow, 0, len(p.good))
+				for _, g := range p.good {
+					if over[g.driveID] {
+						staged = append(staged, g)
+					} else {
+						direct = append(direct, g)
+					}
+				}
+			}
+			if len(direct) > 0 {
+				n, err := copyRows(ctx, tx, "readings", p.rows, direct)
+				if err != nil {
+					return fmt.Errorf("copy into readings: %w", err)
+				}
+				inserted += int(n)
+				firsts := sp
+				if len(staged) > 0 {
+					firsts = spans(direct)
+				}
+				ids := make([]int64, 0, len(firsts))
+				ats := make([]time.Time, 0, len(firsts))
+				for d, x := range firsts {
+					ids, ats = append(ids, d), append(ats, x.lo)
+				}
+				if _, err := tx.Exec(ctx, markDirectSQL, pgx.QueryExecModeExec, ids, ats); err != nil {
+					return fmt.Errorf("mark drives for recomputation: %w", err)
+				}
+			}
+			if len(staged) == 0 {
+				return nil
+			}
 			// The staging table is new in every transaction, so its
 			// statements are not kept as prepared statements.
 			if _, err := tx.Exec(ctx, createStagingSQL, pgx.QueryExecModeExec); err != nil {
 				return fmt.Errorf("create staging table: %w", err)
 			}
-			n, err := tx.CopyFrom(ctx, pgx.Identifier{"readings_staging"}, readingCopyColumns, &copySource{plan: p})
+			n, err := copyRows(ctx, tx, "readings_staging", p.rows, staged)
 			if err != nil {
 				return fmt.Errorf("copy into staging: %w", err)
 			}
-			if int(n) != len(p.good) {
-				return fmt.Errorf("copy into staging: %d rows copied, %d sent", n, len(p.good))
+			if int(n) != len(staged) {
+				return fmt.Errorf("copy into staging: %d rows copied, %d sent", n, len(staged))
 			}
 			var ins, marked int64
 			if err := tx.QueryRow(ctx, insertFromStagingSQL, pgx.QueryExecModeExec).Scan(&ins, &marked); err != nil {
 				return fmt.Errorf("insert from staging: %w", err)
 			}
-			inserted = int(ins)
-			if inserted == len(p.good) {
+			inserted += int(ins)
+			if int(ins) == len(staged) {
 				return nil
 			}
-			conflicts, err = p.pgConflicts(ctx, tx)
+			conflicts, err = p.pgConflicts(ctx, tx, staged)
 			return err
 		})
 	})
@@ -138,15 +269,9 @@ func (s *Store) writePostgres(ctx context.Context, p *ingestPlan) (int, []Confli
 }
 
 // pgConflicts finds the staged rows whose key is stored with other values.
-func (p *ingestPlan) pgConflicts(ctx context.Context, tx pgx.Tx) ([]Conflict, error) {
-	// Without statistics the planner guesses the staging table's size and
-	// may scan whole partitions; a quick ANALYZE lets it probe the primary
-	// key instead.
-	if _, err := tx.Exec(ctx, "ANALYZE readings_staging", pgx.QueryExecModeExec); err != nil {
-		return nil, fmt.Errorf("analyze staging: %w", err)
-	}
-	lo, hi := p.good[0].at, p.good[0].at
-	for _, g := range p.good {
+func (p *ingestPlan) pgConflicts(ctx context.Context, tx pgx.Tx, staged []plannedRow) ([]Conflict, error) {
+	lo, hi := staged[0].at, staged[0].at
+	for _, g := range staged {
 		if g.at.Before(lo) {
 			lo = g.at
 		}
@@ -184,32 +309,18 @@ func (p *ingestPlan) pgConflicts(ctx context.Context, tx pgx.Tx) ([]Conflict, er
 	return out, nil
 }
 
-// copySource feeds a plan's good rows to CopyFrom without copying them:
-// every value is a pointer into the plan or the caller's rows, and a nil
-// measurement pointer is NULL.
-type copySource struct {
-	plan *ingestPlan
-	i    int
-	vals [3 + readingValueCount]any
+// uniqueViolation reports a primary-key clash: a direct COPY met a reading
+// another transaction stored after the overlap query looked.
+func uniqueViolation(err error) bool {
+	var pgErr *pgconn.PgError
+	return errors.As(err, &pgErr) && pgErr.Code == "23505"
 }
 
-func (c *copySource) Next() bool {
-	c.i++
-	return c.i <= len(c.plan.good)
+// copyRows COPYs planned rows into table (readings or readings_staging)
+// with pgx's CopyFrom on the transaction's connection, the rows encoded by
+// copyEncoder.
+func copyRows(ctx context.Context, tx pgx.Tx, table string, rows []Reading, good []plannedRow) (int64, error) {
+	tag, err := tx.Conn().PgConn().CopyFrom(ctx, newCopyEncoder(rows, good),
+		"COPY "+table+" ("+readingColumnList+") FROM STDIN (FORMAT binary)")
+	return tag.RowsAffected(), err
 }
-
-func (c *copySource) Values() ([]any, error) {
-	g := &c.plan.good[c.i-1]
-	r := &c.plan.rows[g.idx]
-	c.vals[0], c.vals[1], c.vals[2] = &g.driveID, &g.at, &g.positionID
-	for j, v := range r.values() {
-		if v == nil {
-			c.vals[3+j] = nil
-		} else {
-			c.vals[3+j] = v
-		}
-	}
-	return c.vals[:], nil
-}
-
-func (c *copySource) Err() error { return nil }

@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"fmt"
 	"strings"
 
@@ -10,7 +11,8 @@ import (
 )
 
 // The SQLite ingest runs in one immediate transaction (the write lock is
-// taken at BEGIN, so the lookups and the writes see one state): multi-row
+// taken at BEGIN, so concurrent batches wait their turn and the lookups and
+// the writes see one state): multi-row
 // INSERT … ON CONFLICT DO NOTHING RETURNING in chunks, a batched look at the
 // stored rows of the keys that were not inserted, and the watermark update
 // of every drive that received a reading at or before its assessed_to.
@@ -28,26 +30,63 @@ const sqliteKeyChunk = 200
 
 func (s *Store) ingestSQLite(ctx context.Context, rows []Reading, opts IngestOptions) (IngestResult, error) {
 	var res IngestResult
-	err := s.tx(ctx, func(tx *gorm.DB) error {
-		p, err := s.plan(ctx, tx, rows, opts)
-		if err != nil {
-			return err
-		}
-		if err := p.refuse(opts); err != nil {
-			return err
-		}
-		if len(p.good) == 0 {
-			res = p.result(0, nil, opts)
+	err := s.db.WithContext(ctx).Connection(func(conn *gorm.DB) error {
+		// A new session on the one connection, so each query starts clean.
+		db := conn.Session(&gorm.Session{NewDB: true})
+		return immediateTx(ctx, db, func() error {
+			p, err := s.plan(ctx, db, rows, opts)
+			if err != nil {
+				return err
+			}
+			if err := p.refuse(opts); err != nil {
+				return err
+			}
+			if len(p.good) == 0 {
+				res = p.result(0, nil, opts)
+				return nil
+			}
+			inserted, conflicts, err := writeSQLite(ctx, db.Statement.ConnPool, p)
+			if err != nil {
+				return err
+			}
+			res = p.result(inserted, conflicts, opts)
 			return nil
-		}
-		inserted, conflicts, err := writeSQLite(ctx, tx.Statement.ConnPool, p)
-		if err != nil {
-			return err
-		}
-		res = p.result(inserted, conflicts, opts)
-		return nil
+		})
 	})
 	return res, err
+}
+
+// immediateTx runs fn in a BEGIN IMMEDIATE transaction on the single
+// connection db is bound to. The store's DSN asks for immediate
+// transactions with _txlock, but glebarez/go-sqlite v1.21.2 stops reading
+// its options after _time_format, so database/sql transactions begin
+// DEFERRED: a batch that reads and then writes could then fail with
+// SQLITE_BUSY when another writer went first, instead of waiting its turn.
+func immediateTx(ctx context.Context, db *gorm.DB, fn func() error) error {
+	conn := db.Statement.ConnPool
+	if _, err := conn.ExecContext(ctx, "BEGIN IMMEDIATE"); err != nil {
+		return fmt.Errorf("begin: %w", translate(err))
+	}
+	done := false
+	defer func() {
+		if done {
+			return
+		}
+		if _, err := conn.ExecContext(context.WithoutCancel(ctx), "ROLLBACK"); err != nil {
+			// The connection's state is unknown: make the pool drop it.
+			if c, ok := conn.(*sql.Conn); ok {
+				c.Raw(func(any) error { return driver.ErrBadConn })
+			}
+		}
+	}()
+	if err := fn(); err != nil {
+		return err
+	}
+	if _, err := conn.ExecContext(ctx, "COMMIT"); err != nil {
+		return fmt.Errorf("commit: %w", translate(err))
+	}
+	done = true
+	return nil
 }
 
 // insertSQLiteSQL builds the INSERT for n rows.
@@ -135,12 +174,13 @@ func writeSQLite(ctx context.Context, db gorm.ConnPool, p *ingestPlan) (int, []C
 // each as inserted, with its drive's earliest new reading.
 func scanInserted(rs *sql.Rows, p *ingestPlan, inserted []bool, firsts map[int64]int64, count *int) error {
 	defer rs.Close()
+	index := p.keyIndex()
 	for rs.Next() {
 		var k readingKey
 		if err := rs.Scan(&k.drive, &k.at); err != nil {
 			return err
 		}
-		j, ok := p.byKey[k]
+		j, ok := index[k]
 		if !ok || inserted[j] {
 			continue
 		}

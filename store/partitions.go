@@ -76,7 +76,7 @@ func (s *Store) ensureMonths(ctx context.Context, months []int) error {
 			return fmt.Errorf("readings partition for month %d: outside years 1 to 9999", m)
 		}
 	}
-	ps := &s.parts
+	ps := &s.ingest.parts
 	ps.mu.Lock()
 	defer ps.mu.Unlock()
 	missing := func() []int {
@@ -105,7 +105,7 @@ func (s *Store) ensureMonths(ctx context.Context, months []int) error {
 }
 
 // loadPartitions reads the names of the existing monthly partitions into
-// the cache. The caller holds s.parts.mu.
+// the cache. The caller holds s.ingest.parts.mu.
 func (s *Store) loadPartitions(ctx context.Context) error {
 	rows, err := s.sqlDB.QueryContext(ctx, `SELECT c.relname FROM pg_inherits i JOIN pg_class c ON c.oid = i.inhrelid
 		WHERE i.inhparent = 'readings'::regclass`)
@@ -126,7 +126,7 @@ func (s *Store) loadPartitions(ctx context.Context) error {
 	if err := rows.Err(); err != nil {
 		return fmt.Errorf("list readings partitions: %w", translate(err))
 	}
-	s.parts.months, s.parts.loaded = months, time.Now()
+	s.ingest.parts.months, s.ingest.parts.loaded = months, time.Now()
 	return nil
 }
 
@@ -220,13 +220,13 @@ func (s *Store) ReadingPartitions(ctx context.Context) ([]time.Time, error) {
 	if s.dialect != Postgres {
 		return nil, nil
 	}
-	s.parts.mu.Lock()
-	defer s.parts.mu.Unlock()
+	s.ingest.parts.mu.Lock()
+	defer s.ingest.parts.mu.Unlock()
 	if err := s.loadPartitions(ctx); err != nil {
 		return nil, err
 	}
-	out := make([]time.Time, 0, len(s.parts.months))
-	for m := range s.parts.months {
+	out := make([]time.Time, 0, len(s.ingest.parts.months))
+	for m := range s.ingest.parts.months {
 		out = append(out, monthStart(m))
 	}
 	slices.SortFunc(out, func(a, b time.Time) int { return a.Compare(b) })

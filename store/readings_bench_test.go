@@ -27,15 +27,22 @@ func BenchmarkParseReadingsCSV(b *testing.B) {
 	if err := store.WriteReadingsCSV(&body, sampleRows(benchRows), store.ReadingInputColumns()); err != nil {
 		b.Fatal(err)
 	}
-	b.SetBytes(int64(body.Len()))
-	b.ReportAllocs()
-	for b.Loop() {
-		batch, err := store.ParseReadingsCSV(bytes.NewReader(body.Bytes()), store.ParseOptions{})
-		if err != nil || len(batch.Rows) != benchRows {
-			b.Fatal(err)
-		}
+	for _, c := range []struct {
+		name  string
+		parse func([]byte, store.ParseOptions) (store.ReadingBatch, error)
+	}{{"hand_split", store.ParseReadingsCSV}, {"encoding_csv", store.ParseCSVQuoted}} {
+		b.Run(c.name, func(b *testing.B) {
+			b.SetBytes(int64(body.Len()))
+			b.ReportAllocs()
+			for b.Loop() {
+				batch, err := c.parse(body.Bytes(), store.ParseOptions{})
+				if err != nil || len(batch.Rows) != benchRows {
+					b.Fatal(err)
+				}
+			}
+			reportRows(b, benchRows)
+		})
 	}
-	reportRows(b, benchRows)
 }
 
 // BenchmarkParseReadingsJSON compares the scanner kelvard uses with the two

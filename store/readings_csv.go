@@ -1,6 +1,7 @@
 package store
 
 import (
+	"bytes"
 	"encoding/csv"
 	"errors"
 	"fmt"
@@ -18,8 +19,198 @@ import (
 // time, the wrong number of fields) is listed in Refused with its row, line
 // and reason, and the other rows are returned. More than opts.MaxRows data
 // rows is a *TooManyRowsError.
-func ParseReadingsCSV(r io.Reader, opts ParseOptions) (ReadingBatch, error) {
-	cr := csv.NewReader(r)
+//
+// A body without a double quote, which is what gateways and historians
+// write, is split by hand; one with quotes goes through encoding/csv. Both
+// give the same rows (FuzzParseReadingsCSV holds them to it); the hand
+// split reads readings about twice as fast (BenchmarkParseReadingsCSV).
+func ParseReadingsCSV(body []byte, opts ParseOptions) (ReadingBatch, error) {
+	if bytes.IndexByte(body, '"') < 0 {
+		return parseCSVPlain(body, opts)
+	}
+	return parseCSVQuoted(body, opts)
+}
+
+// text is what CSV fields come as: strings from encoding/csv, byte slices
+// from the hand split.
+type text interface{ ~string | ~[]byte }
+
+// csvRows collects the rows of a CSV body.
+type csvRows struct {
+	cols  []readingColumn
+	max   int
+	row   int
+	batch ReadingBatch
+	slab  floatSlab
+	names interner
+}
+
+// csvHeader reads the header row into column numbers.
+func csvHeader[T text](fields []T) ([]readingColumn, error) {
+	cols := make([]readingColumn, len(fields))
+	seen := map[readingColumn]bool{}
+	for i, h := range fields {
+		name := strings.TrimSpace(string(h))
+		if i == 0 {
+			name = strings.TrimPrefix(name, "\uFEFF")
+		}
+		c, ok := inputColumnIndex(name)
+		if !ok {
+			return nil, unknownColumn(name, 0, 1)
+		}
+		if seen[c] {
+			return nil, malformed(name, 1, "appears twice in the header")
+		}
+		seen[c] = true
+		cols[i] = c
+	}
+	if !seen[colAt] {
+		return nil, malformed("at", 1, "the header has no at column; every reading needs its time")
+	}
+	return cols, nil
+}
+
+// addRecord reads one data record that starts on line.
+func addRecord[T text](c *csvRows, rec []T, line int) error {
+	c.row++
+	if c.max > 0 && c.row > c.max {
+		return &TooManyRowsError{Limit: c.max}
+	}
+	if len(rec) != len(c.cols) {
+		c.batch.Refused = append(c.batch.Refused, FieldError{Field: "row", Row: c.row, Line: line,
+			Reason: fmt.Sprintf("has %d fields; the header has %d", len(rec), len(c.cols))})
+		return nil
+	}
+	rd := Reading{Row: c.row, Line: line}
+	bad := false
+	for i, col := range c.cols {
+		v := trimSpace(rec[i])
+		if len(v) == 0 {
+			continue
+		}
+		var why string
+		switch col {
+		case colSite:
+			rd.Site = intern(c.names, v)
+		case colPosition:
+			rd.Position = intern(c.names, v)
+		case colAt:
+			t, ok := parseTime(string(v))
+			if !ok {
+				why = reasonNotTime
+			}
+			rd.At = t
+		default:
+			var f float64
+			if f, why = parseNumber(string(v)); why == "" {
+				rd.setValue(col, c.slab.put(f))
+			}
+		}
+		if why != "" {
+			bad = true
+			c.batch.Refused = append(c.batch.Refused, FieldError{Field: col.name(), Row: c.row, Line: line, Reason: why})
+		}
+	}
+	if !bad {
+		c.batch.Rows = append(c.batch.Rows, rd)
+	}
+	return nil
+}
+
+// trimSpace trims ASCII white space, as strings.TrimSpace does for it.
+func trimSpace[T text](v T) T {
+	i, j := 0, len(v)
+	for i < j && isSpace(v[i]) {
+		i++
+	}
+	for j > i && isSpace(v[j-1]) {
+		j--
+	}
+	return v[i:j]
+}
+
+func isSpace(c byte) bool {
+	return c == ' ' || c == '\t' || c == '\n' || c == '\r' || c == '\v' || c == '\f'
+}
+
+// intern returns the interned copy of a site name or tag.
+func intern[T text](in interner, v T) string {
+	if s, ok := in[string(v)]; ok {
+		return s
+	}
+	s := strings.Clone(string(v))
+	in[s] = s
+	return s
+}
+
+// parseCSVPlain splits a body without quotes by hand, the way
+// encoding/csv would: records end at \n (a \r before it or before the end
+// of the body is dropped), empty lines are skipped, fields end at commas.
+func parseCSVPlain(body []byte, opts ParseOptions) (ReadingBatch, error) {
+	var (
+		c      = csvRows{max: opts.MaxRows, names: interner{}}
+		fields [][]byte
+		line   int
+		pos    int
+	)
+	next := func() ([]byte, bool) {
+		for pos < len(body) {
+			line++
+			l := body[pos:]
+			if end := bytes.IndexByte(l, '\n'); end >= 0 {
+				l, pos = l[:end], pos+end+1
+			} else {
+				pos = len(body)
+			}
+			if n := len(l); n > 0 && l[n-1] == '\r' {
+				l = l[:n-1]
+			}
+			if len(l) > 0 {
+				return l, true
+			}
+		}
+		return nil, false
+	}
+	split := func(l []byte) [][]byte {
+		fields = fields[:0]
+		for {
+			i := bytes.IndexByte(l, ',')
+			if i < 0 {
+				fields = append(fields, l)
+				return fields
+			}
+			fields, l = append(fields, l[:i]), l[i+1:]
+		}
+	}
+	head, ok := next()
+	if !ok {
+		return ReadingBatch{}, malformed("body", 0, "is empty: a CSV body starts with a header row naming its columns")
+	}
+	cols, err := csvHeader(split(head))
+	if err != nil {
+		return ReadingBatch{}, err
+	}
+	c.cols = cols
+	estimate := bytes.Count(body[pos:], []byte{'\n'}) + 1
+	if opts.MaxRows > 0 {
+		estimate = min(estimate, opts.MaxRows)
+	}
+	c.batch.Rows = make([]Reading, 0, estimate)
+	for {
+		l, ok := next()
+		if !ok {
+			break
+		}
+		if err := addRecord(&c, split(l), line); err != nil {
+			return ReadingBatch{}, err
+		}
+	}
+	return c.batch, nil
+}
+
+// parseCSVQuoted reads a body that holds quotes with encoding/csv.
+func parseCSVQuoted(body []byte, opts ParseOptions) (ReadingBatch, error) {
+	cr := csv.NewReader(bytes.NewReader(body))
 	cr.ReuseRecord = true
 	cr.FieldsPerRecord = -1
 	header, err := cr.Read()
@@ -29,33 +220,10 @@ func ParseReadingsCSV(r io.Reader, opts ParseOptions) (ReadingBatch, error) {
 	if err != nil {
 		return ReadingBatch{}, csvMalformed(err)
 	}
-	cols := make([]readingColumn, len(header))
-	seen := map[readingColumn]bool{}
-	for i, h := range header {
-		name := strings.TrimSpace(h)
-		if i == 0 {
-			name = strings.TrimPrefix(name, "\uFEFF")
-		}
-		c, ok := inputColumnIndex(name)
-		if !ok {
-			return ReadingBatch{}, unknownColumn(name, 0, 1)
-		}
-		if seen[c] {
-			return ReadingBatch{}, malformed(name, 1, "appears twice in the header")
-		}
-		seen[c] = true
-		cols[i] = c
+	c := csvRows{max: opts.MaxRows, names: interner{}}
+	if c.cols, err = csvHeader(header); err != nil {
+		return ReadingBatch{}, err
 	}
-	if !seen[colAt] {
-		return ReadingBatch{}, malformed("at", 1, "the header has no at column; every reading needs its time")
-	}
-
-	var (
-		batch ReadingBatch
-		slab  floatSlab
-		names = interner{}
-		row   int
-	)
 	for {
 		rec, err := cr.Read()
 		if errors.Is(err, io.EOF) {
@@ -64,51 +232,12 @@ func ParseReadingsCSV(r io.Reader, opts ParseOptions) (ReadingBatch, error) {
 		if err != nil {
 			return ReadingBatch{}, csvMalformed(err)
 		}
-		row++
-		if opts.MaxRows > 0 && row > opts.MaxRows {
-			return ReadingBatch{}, &TooManyRowsError{Limit: opts.MaxRows}
-		}
 		line, _ := cr.FieldPos(0)
-		if len(rec) != len(cols) {
-			batch.Refused = append(batch.Refused, FieldError{Field: "row", Row: row, Line: line,
-				Reason: fmt.Sprintf("has %d fields; the header has %d", len(rec), len(cols))})
-			continue
-		}
-		rd := Reading{Row: row, Line: line}
-		bad := false
-		for i, c := range cols {
-			v := strings.TrimSpace(rec[i])
-			if v == "" {
-				continue
-			}
-			var why string
-			switch c {
-			case colSite:
-				rd.Site = names.string(v)
-			case colPosition:
-				rd.Position = names.string(v)
-			case colAt:
-				t, ok := parseTime(v)
-				if !ok {
-					why = reasonNotTime
-				}
-				rd.At = t
-			default:
-				var f float64
-				if f, why = parseNumber(v); why == "" {
-					rd.setValue(c, slab.put(f))
-				}
-			}
-			if why != "" {
-				bad = true
-				batch.Refused = append(batch.Refused, FieldError{Field: c.name(), Row: row, Line: line, Reason: why})
-			}
-		}
-		if !bad {
-			batch.Rows = append(batch.Rows, rd)
+		if err := addRecord(&c, rec, line); err != nil {
+			return ReadingBatch{}, err
 		}
 	}
-	return batch, nil
+	return c.batch, nil
 }
 
 // csvMalformed describes a CSV syntax error.

@@ -35,6 +35,9 @@ type jsonScanner struct {
 	names   interner
 	slab    floatSlab
 	scratch []byte
+	// follows[c+1]-1 is the key that followed key c last time (c =
+	// noColumn: the first key); 0 when not seen yet.
+	follows [int(colValue0) + readingValueCount + 1]readingColumn
 }
 
 func (d *jsonScanner) peek() byte {
@@ -74,6 +77,12 @@ func (d *jsonScanner) readings(opts ParseOptions) (ReadingBatch, error) {
 	}
 	d.pos++
 	d.ws()
+	// Every reading is an object, so the braces bound the row count.
+	estimate := bytes.Count(d.buf[d.pos:], []byte{'{'})
+	if opts.MaxRows > 0 {
+		estimate = min(estimate, opts.MaxRows+1)
+	}
+	batch.Rows = make([]Reading, 0, estimate)
 	if d.peek() == ']' {
 		d.pos++
 	} else {
@@ -135,18 +144,16 @@ func (d *jsonScanner) object(row, line int) (Reading, []FieldError, error) {
 		d.pos++
 		return rd, nil, nil
 	}
+	prev := noColumn
 	for {
 		if d.peek() != '"' {
 			return rd, nil, d.syntax("expected a quoted key")
 		}
-		key, err := d.str()
+		col, err := d.key(prev, row, line)
 		if err != nil {
 			return rd, nil, err
 		}
-		col, ok := inputColumnOf(key)
-		if !ok {
-			return rd, nil, unknownColumn(string(key), row, line)
-		}
+		prev = col
 		d.ws()
 		if d.peek() != ':' {
 			return rd, nil, d.syntax("expected : after a key")
@@ -194,7 +201,7 @@ func (d *jsonScanner) field(rd *Reading, col readingColumn, fail func(readingCol
 		if err != nil {
 			return err
 		}
-		v := d.names.bytes(bytes.TrimSpace(s))
+		v := intern(d.names, trimSpace(s))
 		if col == colSite {
 			rd.Site = v
 		} else {
@@ -232,6 +239,45 @@ func (d *jsonScanner) field(rd *Reading, col readingColumn, fail func(readingCol
 	}
 	return nil
 }
+
+// key reads a key of an object; prev is the key before it (noColumn for
+// the first). Gateways write every object with the same keys in the same
+// order, perhaps with some left out, so the key that followed prev last
+// time is tried first, as one comparison of bytes; any other key is read
+// in full and looked up.
+func (d *jsonScanner) key(prev readingColumn, row, line int) (readingColumn, error) {
+	slot := prev + 1
+	if d.follows[slot] > 0 {
+		want := d.follows[slot] - 1
+		lit := quotedColumns[want]
+		if end := d.pos + len(lit); end <= len(d.buf) && string(d.buf[d.pos:end]) == lit {
+			d.pos = end
+			return want, nil
+		}
+	}
+	key, err := d.str()
+	if err != nil {
+		return 0, err
+	}
+	col, ok := inputColumnOf(key)
+	if !ok {
+		return 0, unknownColumn(string(key), row, line)
+	}
+	d.follows[slot] = col + 1
+	return col, nil
+}
+
+// noColumn stands before the first key of an object.
+const noColumn readingColumn = -1
+
+// quotedColumns holds each input column's name as a quoted JSON string.
+var quotedColumns = func() [int(colValue0) + readingValueCount]string {
+	var out [int(colValue0) + readingValueCount]string
+	for c := range out {
+		out[c] = `"` + readingColumn(c).name() + `"`
+	}
+	return out
+}()
 
 // inputColumnOf maps a key to its column without allocating.
 func inputColumnOf(key []byte) (readingColumn, bool) {
@@ -328,20 +374,44 @@ func (d *jsonScanner) number() ([]byte, error) {
 func (d *jsonScanner) str() ([]byte, error) {
 	d.pos++ // opening quote
 	start := d.pos
+	ascii := true
 	for d.pos < len(d.buf) {
 		c := d.buf[d.pos]
 		switch {
 		case c == '"':
 			d.pos++
-			return d.buf[start : d.pos-1], nil
+			out := d.buf[start : d.pos-1]
+			if !ascii && !utf8.Valid(out) {
+				return d.validUTF8(out), nil
+			}
+			return out, nil
 		case c == '\\':
 			return d.strEscaped(start)
 		case c < 0x20:
 			return nil, d.syntax("control character in a string")
+		case c >= utf8.RuneSelf:
+			ascii = false
 		}
 		d.pos++
 	}
 	return nil, d.syntax("unterminated string")
+}
+
+// validUTF8 replaces each byte of b that is not part of valid UTF-8 with
+// U+FFFD, as encoding/json does. The result lives in scratch.
+func (d *jsonScanner) validUTF8(b []byte) []byte {
+	out := d.scratch[:0]
+	for len(b) > 0 {
+		r, size := utf8.DecodeRune(b)
+		if r == utf8.RuneError && size == 1 {
+			out = utf8.AppendRune(out, utf8.RuneError)
+		} else {
+			out = append(out, b[:size]...)
+		}
+		b = b[size:]
+	}
+	d.scratch = out
+	return out
 }
 
 // strEscaped finishes a string that holds escapes.
@@ -352,6 +422,13 @@ func (d *jsonScanner) strEscaped(start int) ([]byte, error) {
 		switch {
 		case c == '"':
 			d.pos++
+			if !utf8.Valid(out) {
+				// Only raw bytes can be invalid; escapes always encode
+				// valid runes.
+				d.scratch = out
+				fixed := append([]byte(nil), out...)
+				return d.validUTF8(fixed), nil
+			}
 			d.scratch = out
 			return out, nil
 		case c < 0x20:

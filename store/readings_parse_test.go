@@ -14,7 +14,7 @@ import (
 
 func parseCSV(t *testing.T, body string, max int) (store.ReadingBatch, error) {
 	t.Helper()
-	return store.ParseReadingsCSV(strings.NewReader(body), store.ParseOptions{MaxRows: max})
+	return store.ParseReadingsCSV([]byte(body), store.ParseOptions{MaxRows: max})
 }
 
 // malformedField returns the field a *MalformedError names, or fails.
@@ -157,7 +157,7 @@ func TestCSVAndJSONGiveIdenticalRows(t *testing.T) {
 	if err := store.WriteReadingsCSV(&csvBody, rows, store.ReadingInputColumns()); err != nil {
 		t.Fatal(err)
 	}
-	fromCSV, err := store.ParseReadingsCSV(&csvBody, store.ParseOptions{})
+	fromCSV, err := store.ParseReadingsCSV(csvBody.Bytes(), store.ParseOptions{})
 	if err != nil || len(fromCSV.Refused) != 0 {
 		t.Fatalf("CSV: %v %+v", err, fromCSV.Refused)
 	}

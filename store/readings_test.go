@@ -7,6 +7,7 @@ import (
 	"math"
 	"slices"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 
@@ -333,6 +334,15 @@ func TestLateReadingMarksItsDriveForRecomputation(t *testing.T) {
 		if rf := recomputeFrom(); rf == nil || !rf.Equal(mark) {
 			t.Fatalf("advance cleared a mark it had not handled: %v", rf)
 		}
+		// A batch that mixes a stored reading with a late new one goes
+		// through the staging table; it marks the drive all the same.
+		if err := s.AdvanceWatermark(ctx, fx.Drive.ID, assessed, &mark); err != nil {
+			t.Fatal(err)
+		}
+		late := hourly(fx.Position.Tag, day0, 2)
+		late[1].At = day0.Add(90 * time.Minute)
+		early := late[1].At
+		step(late, &early)
 		// Other drives are untouched; a drive never assessed gets no row.
 		if _, err := s.Ingest(ctx, hourly(other.Position.Tag, day0, 3), store.IngestOptions{}); err != nil {
 			t.Fatal(err)
@@ -479,4 +489,97 @@ func TestReadingsPagesAndScans(t *testing.T) {
 			t.Errorf("callback error: %v after %d samples, want it returned as is after 3", err, n)
 		}
 	})
+}
+
+// TestConcurrentIdenticalBatches posts the same new batch from several
+// goroutines at once: each reading is stored once and every batch is
+// answered, the ones that lost the race with already_present.
+func TestConcurrentIdenticalBatches(t *testing.T) {
+	t.Parallel()
+	forEachStore(t, func(t *testing.T, s *store.Store) {
+		ctx := context.Background()
+		fx := storetest.Build(t, s, "a")
+		rows := hourly(fx.Position.Tag, day0, 500)
+		const senders = 4
+		results := make(chan store.IngestResult, senders)
+		errs := make(chan error, senders)
+		var wg sync.WaitGroup
+		for range senders {
+			wg.Go(func() {
+				res, err := s.Ingest(ctx, rows, store.IngestOptions{})
+				if err != nil {
+					errs <- err
+					return
+				}
+				results <- res
+			})
+		}
+		wg.Wait()
+		close(results)
+		close(errs)
+		for err := range errs {
+			t.Fatalf("concurrent ingest: %v", err)
+		}
+		inserted, present := 0, 0
+		for res := range results {
+			inserted += res.Inserted
+			present += res.AlreadyPresent
+			if len(res.Conflicts) != 0 {
+				t.Errorf("identical batches conflict: %+v", res.Conflicts[0])
+			}
+		}
+		if inserted != 500 || present != 500*(senders-1) {
+			t.Errorf("inserted %d and already present %d, want 500 and %d", inserted, present, 500*(senders-1))
+		}
+		if n := countReadings(t, s, fx.Drive.ID); n != 500 {
+			t.Errorf("%d readings stored, want 500", n)
+		}
+	})
+}
+
+// TestReplicaReplayDespiteStaleHint replays, through one replica, readings
+// another replica stored after the first one's last batch: the first
+// replica's hint says they are new, the COPY meets them and the retry
+// reports them as already present (and a changed one as a conflict).
+func TestReplicaReplayDespiteStaleHint(t *testing.T) {
+	t.Parallel()
+	for _, d := range storetest.Dialects {
+		t.Run(string(d), func(t *testing.T) {
+			t.Parallel()
+			ctx := context.Background()
+			url := storetest.URL(t, d)
+			open := func() *store.Store {
+				s, err := store.Open(ctx, url, store.Options{})
+				if err != nil {
+					t.Fatal(err)
+				}
+				t.Cleanup(func() { s.Close() })
+				if _, err := s.Migrate(ctx); err != nil {
+					t.Fatal(err)
+				}
+				return s
+			}
+			a, b := open(), open()
+			fx := storetest.Build(t, a, "a")
+			if res, err := a.Ingest(ctx, hourly(fx.Position.Tag, day0, 10), store.IngestOptions{}); err != nil || res.Inserted != 10 {
+				t.Fatalf("first batch on replica a: %+v, %v", res, err)
+			}
+			later := hourly(fx.Position.Tag, day0.Add(10*time.Hour), 10)
+			if res, err := b.Ingest(ctx, later, store.IngestOptions{}); err != nil || res.Inserted != 10 {
+				t.Fatalf("second batch on replica b: %+v, %v", res, err)
+			}
+			replay := hourly(fx.Position.Tag, day0.Add(10*time.Hour), 11)
+			replay[4].BusV = f(600)
+			res, err := a.Ingest(ctx, replay, store.IngestOptions{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if res.Inserted != 1 || res.AlreadyPresent != 9 || len(res.Conflicts) != 1 || res.Conflicts[0].Row != 5 {
+				t.Errorf("replay through replica a: %+v", res)
+			}
+			if n := countReadings(t, a, fx.Drive.ID); n != 21 {
+				t.Errorf("%d readings stored, want 21", n)
+			}
+		})
+	}
 }

@@ -144,7 +144,7 @@ func (s *Store) SaveRollup(ctx context.Context, m RollupMonth, hours []HourlyRea
 				if err := tx.Exec("DROP TABLE " + name).Error; err != nil {
 					return fmt.Errorf("drop %s: %w", name, translate(err))
 				}
-				s.parts.forget(monthOf(m.Start))
+				s.ingest.parts.forget(monthOf(m.Start))
 			}
 		}
 		// Rows in the default partition (or on SQLite) go row by row.

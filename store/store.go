@@ -47,7 +47,7 @@ type Store struct {
 	dialect Dialect
 	log     *slog.Logger
 	now     func() time.Time
-	parts   partitionSet // readings partitions known to exist (PostgreSQL)
+	ingest  ingestState // readings partitions known to exist, per-drive hints
 }
 
 // Options tunes Open. The zero value is usable.
@@ -136,8 +136,11 @@ func sqliteDSN(path string) string {
 	q.Add("_pragma", "journal_mode(WAL)")
 	q.Add("_pragma", "busy_timeout(10000)")
 	q.Add("_pragma", "synchronous(NORMAL)")
+	// No _time_format: the driver's default already writes times as
+	// "2006-01-02 15:04:05.999999999-07:00", and in this driver version
+	// a _time_format option stops the options after it from being read,
+	// which would drop _txlock.
 	q.Set("_txlock", "immediate")
-	q.Set("_time_format", "sqlite")
 	return "file:" + path + "?" + q.Encode()
 }
 

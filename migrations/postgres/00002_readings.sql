@@ -70,7 +70,12 @@ CREATE TABLE idempotency_keys (
 );
 CREATE INDEX idempotency_keys_created ON idempotency_keys (created_at);
 
+-- The ingest finds positions by tag; the register's unique index leads
+-- with site_id and cannot serve that.
+CREATE INDEX positions_tag ON positions (tag);
+
 -- +goose Down
+DROP INDEX positions_tag;
 DROP TABLE idempotency_keys;
 DROP TABLE drive_watermarks;
 DROP TABLE readings;

@@ -388,8 +388,19 @@ func TestProgressAndReadings(t *testing.T) {
 		if read.Done != int64(len(text)) || read.Total != int64(len(text)) || write.Done != 3 || write.Total != 3 {
 			t.Errorf("last progress reports: read %+v, write %+v", read, write)
 		}
-		if _, err := Import(ctx, s, KindReadings, strings.NewReader("position,at\n"), Options{}); !errors.Is(err, ErrNotAvailable) {
-			t.Errorf("readings import: %v, want ErrNotAvailable", err)
+		// Readings go through the readings ingest: stored once, then
+		// unchanged on a second import.
+		importAll(t, s)
+		readings := "site,position,at,ambient_c\nRiver Intake,RI-P1,2024-01-01T00:00:00Z,21.5\nRiver Intake,RI-P1,2024-01-01T01:00:00Z,21.0\n"
+		for i, want := range []Result{{Kind: KindReadings, Rows: 2, Created: 2}, {Kind: KindReadings, Rows: 2, Unchanged: 2}} {
+			res, err := Import(ctx, s, KindReadings, strings.NewReader(readings), Options{})
+			if err != nil || res.Rows != want.Rows || res.Created != want.Created || res.Unchanged != want.Unchanged {
+				t.Errorf("readings import %d: %+v, %v; want %+v", i+1, res, err, want)
+			}
+		}
+		var ve *store.ValidationError
+		if _, err := Import(ctx, s, KindReadings, strings.NewReader("position,colour\n"), Options{}); !errors.As(err, &ve) {
+			t.Errorf("readings with an unknown column: %v, want a validation error", err)
 		}
 	})
 }
