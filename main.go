@@ -25,6 +25,7 @@ import (
 
 	"kelvard/api"
 	"kelvard/jobs"
+	"kelvard/jobs/plan"
 	"kelvard/jobs/progress"
 	"kelvard/store"
 	"kelvard/store/csvio"
@@ -50,6 +51,8 @@ Commands:
   import    import a register CSV file: import KIND FILE [--partial]
   token     make, list and revoke API tokens
   assess    run one assessment now (--full recomputes every drive)
+  plan      print the replacement forecast, fleet reliability with spares, and open
+            work orders: plan [forecast|reliability|work-orders] --format table|csv|json
   version   print the version
 
 Every flag can also be set by an environment variable named in its help,
@@ -76,6 +79,8 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 		err = cmdAssess(ctx, rest, getenv, stdout, stderr)
 	case "import":
 		err = cmdImport(ctx, rest, getenv, os.Stdin, stdout, stderr)
+	case "plan":
+		err = cmdPlan(ctx, rest, getenv, stdout, stderr)
 	case "version":
 		fmt.Fprintln(stdout, "kelvard", buildVersion())
 	case "help", "-h", "--help":
@@ -571,7 +576,31 @@ type jobSource func(st *store.Store, log *slog.Logger, n *jobs.Notifier) []jobs.
 func builtinJobs(st *store.Store, log *slog.Logger, n *jobs.Notifier) []jobs.Job {
 	return []jobs.Job{
 		jobs.AssessJob{Assessor: jobs.NewAssessor(st, jobs.AssessConfig{Log: log, Notify: n != nil}), Notifier: n},
+		plan.Job{Store: st, Log: log},
 	}
+}
+
+// cmdPlan wires `kelvard plan` to the planning package.
+func cmdPlan(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+	fs, c := newFlags("plan", getenv, stderr)
+	opts := plan.AddFlags(fs)
+	view, args := plan.SplitView(args)
+	if err := parse(fs, args); err != nil {
+		return err
+	}
+	if err := opts.Check(view); err != nil {
+		return usageError{err}
+	}
+	log, err := c.logger(stderr)
+	if err != nil {
+		return err
+	}
+	st, err := c.open(ctx, log)
+	if err != nil {
+		return err
+	}
+	defer st.Close()
+	return plan.Command(ctx, st, view, opts, stdout)
 }
 
 // jobFlags are serve's scheduler settings.
