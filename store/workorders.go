@@ -116,9 +116,9 @@ type WorkOrderLine struct {
 	// CauseKind is finding, forecast, recurring or manual; CauseKey names
 	// the cause ("finding:42", "forecast:dc_bus_capacitors:17" …) and is
 	// how planning recognises a line it has proposed before.
-	CauseKind string `json:"cause_kind"`
-	CauseKey  string `json:"cause_key"`
-	FindingID *int64 `json:"finding_id"`
+	CauseKind string    `json:"cause_kind"`
+	CauseKey  string    `json:"cause_key"`
+	FindingID *int64    `json:"finding_id"`
 	DueAt     time.Time `json:"due_at"`
 	RiskScore float64   `json:"risk_score"`
 	Priority  int       `json:"priority"`
@@ -129,16 +129,16 @@ type WorkOrderLine struct {
 	CauseClearedAt *time.Time `json:"cause_cleared_at"`
 	// Completion: outcome done or not_done, the action taken, what was
 	// found, the spare swapped in and the component fitted.
-	Outcome             string             `json:"outcome"`
-	Action              WorkAction         `json:"action"`
-	FoundFailureMode    health.FailureMode `json:"found_failure_mode"`
-	FoundCapacitanceUF  *float64           `json:"found_capacitance_uf" gorm:"column:found_capacitance_uf"`
-	FoundESRMilliohm    *float64           `json:"found_esr_milliohm" gorm:"column:found_esr_milliohm"`
-	SwapDriveID         *int64             `json:"swap_drive_id"`
-	NewComponentID      *int64             `json:"new_component_id"`
-	CompletionNotes     string             `json:"completion_notes"`
-	CreatedAt           time.Time          `json:"created_at"`
-	UpdatedAt           time.Time          `json:"updated_at"`
+	Outcome            string             `json:"outcome"`
+	Action             WorkAction         `json:"action"`
+	FoundFailureMode   health.FailureMode `json:"found_failure_mode"`
+	FoundCapacitanceUF *float64           `json:"found_capacitance_uf" gorm:"column:found_capacitance_uf"`
+	FoundESRMilliohm   *float64           `json:"found_esr_milliohm" gorm:"column:found_esr_milliohm"`
+	SwapDriveID        *int64             `json:"swap_drive_id"`
+	NewComponentID     *int64             `json:"new_component_id"`
+	CompletionNotes    string             `json:"completion_notes"`
+	CreatedAt          time.Time          `json:"created_at"`
+	UpdatedAt          time.Time          `json:"updated_at"`
 }
 
 // TableName names the lines table.

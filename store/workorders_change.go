@@ -40,8 +40,8 @@ type LineCompletion struct {
 	// unknown).
 	FoundFailureMode   health.FailureMode  `json:"found_failure_mode"`
 	FoundFailureCause  health.FailureCause `json:"found_failure_cause"`
-	FoundCapacitanceUF *float64 `json:"found_capacitance_uf"`
-	FoundESRMilliohm   *float64 `json:"found_esr_milliohm"`
+	FoundCapacitanceUF *float64            `json:"found_capacitance_uf"`
+	FoundESRMilliohm   *float64            `json:"found_esr_milliohm"`
 	// SwapDriveID is the spare put in for swapped_drive; RemovedStatus the
 	// status of the unit taken out (default in_repair).
 	SwapDriveID   *int64             `json:"swap_drive_id"`

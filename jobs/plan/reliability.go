@@ -186,7 +186,9 @@ func (ix *index) groups() []groupDef {
 			ms = append(ms, m)
 		}
 	}
-	slices.SortFunc(ms, func(a, b store.DriveModel) int { return cmp.Or(strings.Compare(a.Name, b.Name), cmp.Compare(a.ID, b.ID)) })
+	slices.SortFunc(ms, func(a, b store.DriveModel) int {
+		return cmp.Or(strings.Compare(a.Name, b.Name), cmp.Compare(a.ID, b.ID))
+	})
 	for _, m := range ms {
 		id := m.ID
 		out = append(out, groupDef{dim: DimensionModel, key: m.Name, has: func(l life) bool { return l.modelID == id }})

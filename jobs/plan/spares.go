@@ -61,7 +61,9 @@ func (ix *index) spares(sets lifeSets, fits map[[3]string]GroupFit, cfg Config) 
 			}
 		}
 	}
-	slices.SortFunc(models, func(a, b store.DriveModel) int { return cmp.Or(strings.Compare(a.Name, b.Name), cmp.Compare(a.ID, b.ID)) })
+	slices.SortFunc(models, func(a, b store.DriveModel) int {
+		return cmp.Or(strings.Compare(a.Name, b.Name), cmp.Compare(a.ID, b.ID))
+	})
 	var out []SparesRow
 	for _, m := range models {
 		row := SparesRow{ModelID: m.ID, Model: m.Name, LeadTimeDays: m.LeadTimeDays, SparesOnHand: m.SparesOnHand, Demand: []ModeDemand{}}
