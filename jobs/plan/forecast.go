@@ -222,7 +222,7 @@ func componentItems(base ForecastItem, kind health.ComponentKind, componentID in
 	} else {
 		periodE, periodL = period, period
 	}
-	overdue := first.Before(at)
+	overdue := r.EndReached || first.Before(at)
 	point, pe := later(first, at), later(early, at)
 	var pl *time.Time
 	if late != nil {
