@@ -150,7 +150,7 @@ func parseWhen(v string) (time.Time, error) {
 // order: UID work-order-ID@kelvard, DTSTAMP, SUMMARY (the title), DUE,
 // PRIORITY (1 highest to 9, store.PriorityFor), STATUS (NEEDS-ACTION,
 // IN-PROCESS once scheduled, COMPLETED with COMPLETED, CANCELLED),
-// LOCATION (area and site), CATEGORIES (the tasks), DTSTART (the scheduled
+// LOCATION (area and site), CATEGORIES (one per task), DTSTART (the scheduled
 // date, when not after DUE), DESCRIPTION (the lines and the safety
 // caution), and X-KELVARD-STATUS, X-KELVARD-EXTERNAL-REF and
 // X-KELVARD-SCHEDULED-FOR for a maintenance system that reads them.
@@ -190,16 +190,14 @@ func WriteICalendar(w io.Writer, orders []store.WorkOrder, stamp time.Time) erro
 			where = o.AreaName + ", " + o.SiteName
 		}
 		t.SetLocation(where)
+		// One CATEGORIES property per task (RFC 5545 lets it recur): the
+		// library escapes the commas of a single list.
 		seen := map[store.WorkTask]bool{}
-		var tasks []string
 		for _, l := range o.Lines {
 			if l.State == store.LineActive && !seen[l.Task] {
 				seen[l.Task] = true
-				tasks = append(tasks, string(l.Task))
+				t.AddCategory(string(l.Task))
 			}
-		}
-		if len(tasks) > 0 {
-			t.SetProperty(ics.ComponentPropertyCategories, strings.Join(tasks, ","))
 		}
 		t.SetProperty(ics.ComponentProperty("X-KELVARD-STATUS"), string(o.Status))
 		if o.ExternalRef != "" {
@@ -207,7 +205,8 @@ func WriteICalendar(w io.Writer, orders []store.WorkOrder, stamp time.Time) erro
 		}
 		t.SetDescription(Description(o))
 	}
-	return cal.SerializeTo(w)
+	// RFC 5545 section 3.1: lines end in CRLF and fold at 75 octets.
+	return cal.SerializeTo(w, ics.WithNewLine("\r\n"), ics.WithLineLength(75))
 }
 
 // Description is an order in plain text: what to do where, and the safety
