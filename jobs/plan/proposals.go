@@ -64,7 +64,8 @@ func TaskForRule(rule string) store.WorkTask {
 //
 //   - every open or acknowledged finding whose remedy is physical work,
 //     due its severity's days (Config.FindingDueDays) after it was first
-//     seen;
+//     seen; findings asking the same task of the same drive make one line,
+//     caused by the most severe and naming the others;
 //   - every forecast replacement of a part fitted now in an installed
 //     drive whose earliest date falls within the model's lead time plus
 //     Config.LeadMarginDays, due at that earliest date;
@@ -91,27 +92,56 @@ func BuildProposals(d *store.PlanningData, f Forecast, cfg Config, at time.Time)
 	}
 	risk := func(driveID int64) float64 { return d.Lives[driveID].RiskScore }
 
+	// One line per drive and task: the most severe finding is the cause,
+	// the others of the same task are named in its reason.
+	type driveTask struct {
+		drive int64
+		task  store.WorkTask
+	}
+	groups := map[driveTask][]store.Finding{}
+	var order []driveTask
 	for _, fd := range d.Findings {
 		if !fd.PhysicalWork {
 			continue
 		}
+		dt := driveTask{fd.DriveID, TaskForRule(fd.Rule)}
+		if _, seen := groups[dt]; !seen {
+			order = append(order, dt)
+		}
+		groups[dt] = append(groups[dt], fd)
+	}
+	for _, dt := range order {
+		fs := groups[dt]
+		slices.SortStableFunc(fs, func(a, b store.Finding) int {
+			return cmp.Or(cmp.Compare(b.Severity.Rank(), a.Severity.Rank()), cmp.Compare(a.ID, b.ID))
+		})
+		fd := fs[0]
 		dr, ok := ix.drive(fd.DriveID)
 		if !ok || dr.Status == health.StatusRetired {
 			continue
 		}
 		m := d.Models[dr.ModelID]
-		task := TaskForRule(fd.Rule)
 		area := fd.AreaID
 		if area == nil && dr.PositionID == nil {
 			area = dr.StoresAreaID
 		}
-		days := cfg.FindingDueDays[fd.Severity]
+		due := fd.FirstSeenAt.Add(time.Duration(cfg.FindingDueDays[fd.Severity] * 24 * float64(time.Hour)))
+		reason := fmt.Sprintf("Finding %d, %s (%s): %s", fd.ID, fd.Rule, fd.Severity, fd.Message)
+		if len(fs) > 1 {
+			var also []string
+			for _, o := range fs[1:] {
+				also = append(also, fmt.Sprintf("finding %d, %s (%s)", o.ID, o.Rule, o.Severity))
+				if d := o.FirstSeenAt.Add(time.Duration(cfg.FindingDueDays[o.Severity] * 24 * float64(time.Hour))); d.Before(due) {
+					due = d
+				}
+			}
+			reason += " Also: " + strings.Join(also, "; ") + "."
+		}
 		id := fd.ID
-		add(store.ProposedLine{SiteID: fd.SiteID, AreaID: area, DriveID: dr.ID, PositionID: fd.PositionID, Task: task,
-			Parts: TaskParts(task, m), LabourH: cfg.TaskLabourH(task, m),
-			Reason:    fmt.Sprintf("Finding %d, %s (%s): %s", fd.ID, fd.Rule, fd.Severity, fd.Message),
+		add(store.ProposedLine{SiteID: fd.SiteID, AreaID: area, DriveID: dr.ID, PositionID: fd.PositionID, Task: dt.task,
+			Parts: TaskParts(dt.task, m), LabourH: cfg.TaskLabourH(dt.task, m), Reason: reason,
 			CauseKind: store.CauseFinding, CauseKey: fmt.Sprintf("finding:%d", fd.ID), FindingID: &id,
-			DueAt: fd.FirstSeenAt.Add(time.Duration(days * 24 * float64(time.Hour))), RiskScore: risk(dr.ID)})
+			DueAt: due, RiskScore: risk(dr.ID)})
 	}
 
 	for _, it := range f.Items {

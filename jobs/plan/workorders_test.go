@@ -134,22 +134,35 @@ func TestProposalsGroupedNotDuplicatedAndWithdrawn(t *testing.T) {
 			t.Errorf("stats %+v", stats)
 		}
 
-		// Every open physical finding has exactly one line.
+		// Every open physical finding has one line: its own, or the line
+		// of the same task on the same drive that names it.
 		orders := h.orders()
 		byKey := map[string]int{}
+		var all []store.WorkOrderLine
 		for _, o := range orders {
 			for _, l := range o.Lines {
 				byKey[l.CauseKey]++
+				all = append(all, l)
 			}
 		}
-		physical := 0
+		causes := 0
 		for _, byRule := range h.findingsByRule {
 			for _, f := range byRule {
-				if f.PhysicalWork {
-					physical++
-					if byKey[findingKey(f)] != 1 {
-						t.Errorf("finding %d (%s) has %d lines", f.ID, f.Rule, byKey[findingKey(f)])
+				if !f.PhysicalWork {
+					continue
+				}
+				if byKey[findingKey(f)] == 1 {
+					causes++
+					continue
+				}
+				named := 0
+				for _, l := range all {
+					if l.DriveID == f.DriveID && l.Task == TaskForRule(f.Rule) && strings.Contains(l.Reason, "finding "+itoa64(f.ID)+", ") {
+						named++
 					}
+				}
+				if byKey[findingKey(f)] != 0 || named != 1 {
+					t.Errorf("finding %d (%s) has %d lines and is named by %d", f.ID, f.Rule, byKey[findingKey(f)], named)
 				}
 			}
 		}
@@ -172,8 +185,8 @@ func TestProposalsGroupedNotDuplicatedAndWithdrawn(t *testing.T) {
 				t.Errorf("forecast line %s proposed beside the finding's", key)
 			}
 		}
-		if len(byKey) != physical {
-			t.Errorf("%d lines for %d physical findings", len(byKey), physical)
+		if len(byKey) != causes {
+			t.Errorf("%d lines for %d findings that cause one", len(byKey), causes)
 		}
 
 		// Grouping: one proposed order per site, area and month; a and c
