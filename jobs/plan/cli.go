@@ -76,9 +76,11 @@ func (o *CommandOptions) Check(view string) error {
 	if o.Status != "open" && !validStatus(store.WorkOrderStatus(o.Status)) {
 		return fmt.Errorf("--status %q: want open or one of %v", o.Status, store.WorkOrderStatuses())
 	}
-	cfg := Config{HorizonMonths: o.HorizonMonths, RefurbishShare: o.RefurbishShare}.Defaults()
-	if err := cfg.Validate(); err != nil {
-		return fmt.Errorf("%w (--horizon-months, --refurbish-share)", err)
+	if o.HorizonMonths < 1 || o.HorizonMonths > 120 {
+		return fmt.Errorf("--horizon-months %d: want 1 to 120", o.HorizonMonths)
+	}
+	if !(o.RefurbishShare > 0 && o.RefurbishShare <= 1) {
+		return fmt.Errorf("--refurbish-share %v: want a share in (0, 1]", o.RefurbishShare)
 	}
 	return nil
 }
