@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"slices"
+	"strconv"
 	"time"
 
 	"gorm.io/gorm"
@@ -191,7 +192,11 @@ func (s *Store) ListWorkOrders(ctx context.Context, lq ListQuery) (Page[WorkOrde
 		q = q.Where("status <> ?", OrderWithdrawn)
 	}
 	if v := filters["drive_id"]; v != "" {
-		q = q.Where("id IN (SELECT work_order_id FROM work_order_lines WHERE drive_id = ?)", v)
+		id, err := strconv.ParseInt(v, 10, 64)
+		if err != nil || id <= 0 {
+			return Page[WorkOrder]{}, Invalid("drive_id", "must be a positive integer id")
+		}
+		q = q.Where("id IN (SELECT work_order_id FROM work_order_lines WHERE drive_id = ?)", id)
 	}
 	var items []WorkOrder
 	if err := q.Where("id > ?", after).Order("id").Limit(limit + 1).Find(&items).Error; err != nil {

@@ -61,6 +61,11 @@ type SyncResult struct {
 	OrdersCreated, OrdersWithdrawn int
 }
 
+// planningLockKey is the PostgreSQL advisory lock key of SyncProposals
+// ("kelvard plan" in ASCII, so it cannot meet another lock of kelvard's
+// by chance).
+const planningLockKey int64 = 0x6b656c7661726470
+
 // lineWithOrder is a line and the state of its order.
 type lineWithOrder struct {
 	WorkOrderLine
@@ -108,6 +113,19 @@ func (s *Store) SyncProposals(ctx context.Context, proposals []ProposedLine, opt
 	var res SyncResult
 	err := s.tx(ctx, func(tx *gorm.DB) error {
 		res = SyncResult{}
+		if s.dialect == Postgres {
+			// One planning run at a time, and no approval slipping in
+			// between reading an open order's lines and withdrawing them:
+			// a change to an order takes the same row locks.
+			if err := tx.Exec("SELECT pg_advisory_xact_lock(?)", planningLockKey).Error; err != nil {
+				return fmt.Errorf("take the planning lock: %w", translate(err))
+			}
+			var ids []int64
+			if err := tx.Clauses(forUpdate).Model(&WorkOrder{}).Where("status IN ?",
+				[]WorkOrderStatus{OrderProposed, OrderApproved, OrderScheduled}).Order("id").Pluck("id", &ids).Error; err != nil {
+				return fmt.Errorf("lock open work orders: %w", translate(err))
+			}
+		}
 		return syncProposals(ctx, tx, proposals, opt, at, &res)
 	})
 	if err != nil {

@@ -61,6 +61,20 @@ func TestCreateWorkOrderChecksItsLines(t *testing.T) {
 			o.Caution != health.SafetyCaution || o.Lines[0].PositionTag != a.Position.Tag || o.Lines[0].CauseKind != store.CauseManual {
 			t.Errorf("order %+v", o)
 		}
+		// A drive with a work order line cannot be deleted.
+		spare, err := store.Create[store.Drive](ctx, s, func(v *store.Drive) error {
+			v.Serial, v.ModelID, v.SiteID, v.ManufacturedAt = "SP-9", a.Model.ID, a.Site.ID, time.Date(2022, 1, 1, 0, 0, 0, 0, time.UTC)
+			return nil
+		})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if _, err := s.CreateWorkOrder(ctx, store.NewWorkOrder{Lines: []store.NewWorkOrderLine{{DriveID: spare.ID, Task: store.TaskEnergise, Reason: "yearly"}}}); err != nil {
+			t.Fatal(err)
+		}
+		if err := store.Delete[store.Drive](ctx, s, spare.ID); !errors.Is(err, store.ErrReferenced) || !strings.Contains(err.Error(), "work_order_lines") {
+			t.Errorf("delete a drive with a work order line: %v", err)
+		}
 		// The external reference is unique.
 		_, err = s.CreateWorkOrder(ctx, store.NewWorkOrder{ExternalRef: "PM-9", Lines: []store.NewWorkOrderLine{
 			{DriveID: a.Drive.ID, Task: store.TaskInspect, Reason: "again"}}})
