@@ -25,6 +25,7 @@ import (
 
 	"kelvard/api"
 	"kelvard/jobs"
+	"kelvard/jobs/plan"
 	"kelvard/jobs/progress"
 	"kelvard/store"
 	"kelvard/store/csvio"
@@ -51,6 +52,8 @@ Commands:
   token     make, list and revoke API tokens
   assess    run one assessment now (--full recomputes every drive)
   bench     measure the server on this machine (bench ingest)
+  plan      print the replacement forecast, fleet reliability with spares, and open
+            work orders: plan [forecast|reliability|work-orders] --format table|csv|json
   version   print the version
 
 Every flag can also be set by an environment variable named in its help,
@@ -79,6 +82,8 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 		err = cmdImport(ctx, rest, getenv, os.Stdin, stdout, stderr)
 	case "bench":
 		err = cmdBench(ctx, rest, getenv, stdout, stderr)
+	case "plan":
+		err = cmdPlan(ctx, rest, getenv, stdout, stderr)
 	case "version":
 		fmt.Fprintln(stdout, "kelvard", buildVersion())
 	case "help", "-h", "--help":
@@ -599,7 +604,31 @@ func builtinJobs(st *store.Store, log *slog.Logger, o jobOptions) []jobs.Job {
 	return []jobs.Job{
 		jobs.AssessJob{Assessor: jobs.NewAssessor(st, jobs.AssessConfig{Log: log, Notify: o.Notifier != nil}), Notifier: o.Notifier},
 		jobs.NewRetentionJob(st, jobs.RetentionConfig{RawRetention: o.RawRetention, Log: log}),
+		plan.Job{Store: st, Log: log},
 	}
+}
+
+// cmdPlan wires `kelvard plan` to the planning package.
+func cmdPlan(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+	fs, c := newFlags("plan", getenv, stderr)
+	opts := plan.AddFlags(fs)
+	view, args := plan.SplitView(args)
+	if err := parse(fs, args); err != nil {
+		return err
+	}
+	if err := opts.Check(view); err != nil {
+		return usageError{err}
+	}
+	log, err := c.logger(stderr)
+	if err != nil {
+		return err
+	}
+	st, err := c.open(ctx, log)
+	if err != nil {
+		return err
+	}
+	defer st.Close()
+	return plan.Command(ctx, st, view, opts, stdout)
 }
 
 // jobFlags are serve's scheduler settings.

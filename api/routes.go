@@ -92,6 +92,7 @@ func (s *Server) routes() {
 	s.registerCSV(v1)
 	s.jobRoutes(v1)
 	s.readingRoutes(v1)
+	s.planningRoutes(v1)
 
 	s.route(operation{Method: http.MethodGet, Path: v1 + "/tokens", Summary: "List tokens (never their secrets)", Tag: "admin",
 		Role: store.RoleAdmin, Response: []store.Token{}}, s.listTokens)

@@ -96,7 +96,7 @@ var (
 		Patch:        []string{"name", "elevation_m", "time_zone", "ambient_min_c", "ambient_max_c", "parameters", "notes"},
 		Filters:      []Filter{{Param: "name", Column: "name", Kind: FilterText}},
 		scope:        "id IN ?",
-		referencedBy: [][2]string{{"areas", "site_id"}, {"positions", "site_id"}, {"drives", "site_id"}},
+		referencedBy: [][2]string{{"areas", "site_id"}, {"positions", "site_id"}, {"drives", "site_id"}, {"work_orders", "site_id"}},
 	}
 	areaInfo = &ResourceInfo{
 		Name: "areas", Table: "areas",
@@ -109,7 +109,7 @@ var (
 			{Param: "corrosion", Column: "env_corrosion", Kind: FilterEnum, Values: enumStrings(health.Corrosions())},
 		},
 		scope:        "site_id IN ?",
-		referencedBy: [][2]string{{"positions", "area_id"}, {"drives", "stores_area_id"}},
+		referencedBy: [][2]string{{"positions", "area_id"}, {"drives", "stores_area_id"}, {"work_orders", "area_id"}},
 	}
 	driveModelFields = []string{"name", "maker", "voltage_class_v", "supply_phases", "normal_duty_current_a", "normal_duty_power_kw",
 		"heavy_duty_current_a", "heavy_duty_power_kw", "normal_overload_fraction", "heavy_overload_fraction", "overload_s",
@@ -141,7 +141,7 @@ var (
 			{Param: "mounting", Column: "mounting", Kind: FilterEnum, Values: enumStrings(health.Mountings())},
 		},
 		scope:        "site_id IN ?",
-		referencedBy: [][2]string{{"installations", "position_id"}, {"events", "position_id"}},
+		referencedBy: [][2]string{{"installations", "position_id"}, {"events", "position_id"}, {"work_order_lines", "position_id"}},
 	}
 	driveInfo = &ResourceInfo{
 		Name: "drives", Table: "drives",
@@ -154,8 +154,9 @@ var (
 			{Param: "serial", Column: "serial", Kind: FilterText},
 			{Param: "status", Column: "status", Kind: FilterEnum, Values: enumStrings(health.DriveStatuses())},
 		},
-		scope:        "site_id IN ?",
-		referencedBy: [][2]string{{"installations", "drive_id"}, {"events", "drive_id"}, {"readings", "drive_id"}},
+		scope: "site_id IN ?",
+		referencedBy: [][2]string{{"installations", "drive_id"}, {"events", "drive_id"}, {"readings", "drive_id"},
+			{"work_order_lines", "drive_id"}, {"work_order_lines", "swap_drive_id"}},
 	}
 	componentInfo = &ResourceInfo{
 		Name: "components", Table: "components",
@@ -165,7 +166,8 @@ var (
 			{Param: "drive_id", Column: "drive_id", Kind: FilterID},
 			{Param: "kind", Column: "kind", Kind: FilterEnum, Values: enumStrings(health.ComponentKinds())},
 		},
-		scope: "drive_id IN (SELECT id FROM drives WHERE site_id IN ?)",
+		scope:        "drive_id IN (SELECT id FROM drives WHERE site_id IN ?)",
+		referencedBy: [][2]string{{"work_order_lines", "new_component_id"}},
 	}
 	installationInfo = &ResourceInfo{
 		Name: "installations", Table: "installations",
