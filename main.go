@@ -28,6 +28,7 @@ import (
 	"kelvard/jobs/progress"
 	"kelvard/store"
 	"kelvard/store/csvio"
+	"kelvard/web"
 )
 
 // version is set at build time with -ldflags "-X main.version=…".
@@ -193,6 +194,10 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	webhook := fs.String("webhook-url", getenv("KELVARD_WEBHOOK_URL"), "URL that new critical findings are posted to (KELVARD_WEBHOOK_URL)")
 	webhookSecret := fs.String("webhook-secret", getenv("KELVARD_WEBHOOK_SECRET"), "key of the HMAC-SHA256 signature on webhook posts (KELVARD_WEBHOOK_SECRET)")
 	metricsToken := fs.Bool("metrics-token", envOr(getenv, "KELVARD_METRICS_TOKEN", "false") == "true", "require a bearer token on /metrics (KELVARD_METRICS_TOKEN=true)")
+	secureCookies := fs.Bool("secure-cookies", envOr(getenv, "KELVARD_SECURE_COOKIES", "false") == "true",
+		"mark page cookies Secure although requests arrive over plain HTTP, when TLS ends at a proxy in front (KELVARD_SECURE_COOKIES=true)")
+	sessionKey := fs.String("session-key", getenv("KELVARD_SESSION_KEY"),
+		"base64 key (32 bytes or more) signing page sessions; replicas must share it; empty makes one per process (KELVARD_SESSION_KEY)")
 	demoFleet := fs.Bool("demo", false, "load an invented demo fleet into an empty store, assess it, and print an admin token")
 	if err := parse(fs, args); err != nil {
 		return err
@@ -239,6 +244,13 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 		demoToken = secret
 		log.Info("demo admin token made", slog.Int64("token", t.ID))
 		cfg.Ready = jobs.StartDemo(ctx, st, sched, time.Now(), log).Ready
+	}
+	key, err := web.ParseSessionKey(*sessionKey)
+	if err != nil {
+		return usageError{err}
+	}
+	if cfg.Pages, err = web.New(st, web.Config{SecureCookies: *secureCookies, SessionKey: key, Log: log}); err != nil {
+		return err
 	}
 	srv, err := api.New(cfg, st, log)
 	if err != nil {
