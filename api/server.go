@@ -110,6 +110,9 @@ func New(cfg Config, st *store.Store, log *slog.Logger) (*Server, error) {
 	e.Use(s.recoverPanics, s.accessLog, s.securityHeaders)
 	e.NoRoute(func(c *gin.Context) {
 		if s.cfg.Pages != nil && !strings.HasPrefix(c.Request.URL.Path, "/api/") {
+			// gin presets 404 for an unmatched path; the pages answer
+			// with their own status, 200 unless they say otherwise.
+			c.Status(http.StatusOK)
 			s.cfg.Pages.ServeHTTP(c.Writer, c.Request)
 			return
 		}
