@@ -45,7 +45,7 @@ func BenchmarkPages(b *testing.B) {
 			}
 			site := largestSite(b, f)
 			pages := []struct{ name, path string }{
-				
+
 				{"fleet", "/fleet"},
 				{"fleet_filtered", fmt.Sprintf("/fleet?site=%d&severity=minor&eol=365", r.SiteID)},
 				{"sites", "/sites"},
