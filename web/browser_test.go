@@ -336,6 +336,19 @@ func browserTests(t *testing.T, f *fleet) {
 	}
 	b.check("13-drive-imperial")
 
+	// A tablet held upright in the plant: the fleet and a drive still read
+	// without the page scrolling sideways (wide tables scroll in their own
+	// focusable region).
+	b.do("tablet", chromedp.EmulateViewport(800, 1280, chromedp.EmulateTouch))
+	for _, p := range []struct{ name, path string }{{"14-tablet-fleet", "/fleet"}, {"15-tablet-drive", driveHref}} {
+		b.open(p.path)
+		if over := value(b, "overflow", chromedp.Evaluate[int](`document.documentElement.scrollWidth - document.documentElement.clientWidth`)); over > 0 {
+			t.Errorf("%s: the page is %d px wider than an 800 px tablet", p.path, over)
+		}
+		b.check(p.name)
+	}
+	b.do("desktop", chromedp.ResetViewport())
+
 	t.Run("tab walk", func(t *testing.T) { tabWalk(t, b, driveHref) })
 }
 

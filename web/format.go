@@ -48,7 +48,7 @@ func percent(f float64) string {
 	if math.Abs(f) < 0.1 && f != 0 {
 		dec = 1
 	}
-	return trimNum(f*100, dec) + " %"
+	return trimNum(f*100, dec) + "\u00a0%" // no break between number and sign
 }
 
 func percentP(f *float64) string {

@@ -37,7 +37,7 @@ func TestUnitConversions(t *testing.T) {
 		{imp, imp.Value(12.0, "K"), "21.6 °F"},
 		{imp, imp.Value(2.0, "K/week"), "3.6 °F/week"},
 		{imp, imp.Value(480.0, "V"), "480 V"},
-		{si, si.Value(0.42, "fraction"), "42 %"},
+		{si, si.Value(0.42, "fraction"), "42\u00a0%"},
 		{si, si.Value("hose_down", ""), "hose down"},
 		{si, si.Value(true, ""), "yes"},
 		{si, si.Value(math.NaN(), "A"), "–"},
@@ -51,9 +51,9 @@ func TestUnitConversions(t *testing.T) {
 
 func TestFormatting(t *testing.T) {
 	for _, tc := range []struct{ got, want string }{
-		{percent(0.5), "50 %"},
-		{percent(0.018), "1.8 %"},
-		{percent(1.25), "125 %"},
+		{percent(0.5), "50\u00a0%"},
+		{percent(0.018), "1.8\u00a0%"},
+		{percent(1.25), "125\u00a0%"},
 		{hours(1131150), "1\u202f131\u202f150 h (129 years)"},
 		{hours(950), "950 h"},
 		{grouped(-1234), "-1\u202f234"},
