@@ -29,6 +29,7 @@ import (
 	"kelvard/jobs/progress"
 	"kelvard/store"
 	"kelvard/store/csvio"
+	"kelvard/web"
 )
 
 // version is set at build time with -ldflags "-X main.version=…".
@@ -209,6 +210,10 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 		"how long raw readings are kept before they are rolled up into hourly aggregates; at least 100 days (KELVARD_RAW_RETENTION)")
 	rateLimit := fs.Float64("rate-limit", envFloat(getenv, "KELVARD_RATE_LIMIT", 100),
 		"requests per second each token may make on this replica; 0 turns the limit off (KELVARD_RATE_LIMIT)")
+	secureCookies := fs.Bool("secure-cookies", envOr(getenv, "KELVARD_SECURE_COOKIES", "false") == "true",
+		"mark page cookies Secure although requests arrive over plain HTTP, when TLS ends at a proxy in front (KELVARD_SECURE_COOKIES=true)")
+	sessionKey := fs.String("session-key", getenv("KELVARD_SESSION_KEY"),
+		"base64 key (32 bytes or more) signing page sessions; replicas must share it; empty makes one per process (KELVARD_SESSION_KEY)")
 	demoFleet := fs.Bool("demo", false, "load an invented demo fleet into an empty store, assess it, and print an admin token")
 	limits, err := ingestLimitFlags(fs, getenv)
 	if err != nil {
@@ -263,6 +268,13 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 		demoToken = secret
 		log.Info("demo admin token made", slog.Int64("token", t.ID))
 		cfg.Ready = jobs.StartDemo(ctx, st, sched, time.Now(), log).Ready
+	}
+	key, err := web.ParseSessionKey(*sessionKey)
+	if err != nil {
+		return usageError{err}
+	}
+	if cfg.Pages, err = web.New(st, web.Config{SecureCookies: *secureCookies, SessionKey: key, Log: log}); err != nil {
+		return err
 	}
 	srv, err := api.New(cfg, st, log)
 	if err != nil {

@@ -7,6 +7,8 @@ import (
 	"io"
 	"log/slog"
 	"net/http"
+	"net/http/cookiejar"
+	"net/url"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -15,6 +17,8 @@ import (
 	"sync/atomic"
 	"testing"
 	"time"
+
+	"github.com/PuerkitoBio/goquery"
 
 	"kelvard/jobs"
 	"kelvard/store"
@@ -42,6 +46,7 @@ func (s *syncBuffer) String() string {
 // started is a running kelvard process (in this test binary).
 type started struct {
 	base   string
+	stdout *syncBuffer
 	cancel context.CancelFunc
 	done   chan int
 	stderr *syncBuffer
@@ -54,13 +59,14 @@ func startServe(t *testing.T, env map[string]string, args ...string) *started {
 	t.Helper()
 	ctx, cancel := context.WithCancel(context.Background())
 	out, errOut := &syncBuffer{}, &syncBuffer{}
-	s := &started{cancel: cancel, done: make(chan int, 1), stderr: errOut}
+	s := &started{cancel: cancel, done: make(chan int, 1), stderr: errOut, stdout: out}
 	getenv := func(k string) string { return env[k] }
 	go func() {
 		s.done <- run(ctx, append([]string{"serve", "--listen", "127.0.0.1:0"}, args...), getenv, out, errOut)
 	}()
 	t.Cleanup(func() { s.stop(t) })
-	deadline := time.Now().Add(60 * time.Second)
+	// --demo loads and assesses the demo fleet before it turns ready.
+	deadline := time.Now().Add(3 * time.Minute)
 	for time.Now().Before(deadline) {
 		if m := addrRE.FindStringSubmatch(out.String()); m != nil {
 			s.base = m[1]
@@ -423,5 +429,60 @@ func TestServeRefusesBadJobSettings(t *testing.T) {
 		if code != 2 || !strings.Contains(errOut.String(), c.want) {
 			t.Errorf("%v %v: exit %d, stderr %q; want 2 and %q", c.env, c.args, code, errOut.String(), c.want)
 		}
+	}
+}
+
+// TestServeDemoNewcomer is a newcomer's first minutes: `serve --demo`
+// prints an address and a token; in the pages they sign in with it, find
+// the riskiest drive at the top of the fleet, and open it to see why: its
+// findings with their evidence.
+func TestServeDemoNewcomer(t *testing.T) {
+	if testing.Short() {
+		t.Skip("loads the demo fleet")
+	}
+	t.Parallel()
+	env := map[string]string{"KELVARD_DATABASE_URL": storetest.URL(t, store.SQLite), "KELVARD_LOG_LEVEL": "warn"}
+	srv := startServe(t, env, "--demo")
+	m := regexp.MustCompile(`admin token \(shown once\): (\S+)`).FindStringSubmatch(srv.stdout.String())
+	if m == nil {
+		t.Fatalf("serve --demo printed no token: %s", srv.stdout.String())
+	}
+	jar, _ := cookiejar.New(nil)
+	c := &http.Client{Jar: jar}
+	get := func(path string) *goquery.Document {
+		t.Helper()
+		res, err := c.Get(srv.base + path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer res.Body.Close()
+		doc, err := goquery.NewDocumentFromReader(res.Body)
+		if err != nil || res.StatusCode != http.StatusOK {
+			t.Fatalf("GET %s: %d %v", path, res.StatusCode, err)
+		}
+		return doc
+	}
+	form := get("/").Find(`form[action="/signin"]`)
+	if form.Length() != 1 {
+		t.Fatal("the address does not lead to the sign-in form")
+	}
+	res, err := c.PostForm(srv.base+"/signin", url.Values{"csrf": {form.Find(`input[name="csrf"]`).AttrOr("value", "")}, "token": {m[1]}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	doc, err := goquery.NewDocumentFromReader(res.Body)
+	res.Body.Close()
+	if err != nil || res.Request.URL.Path != "/fleet" {
+		t.Fatalf("signing in with the printed token led to %s: %v", res.Request.URL, err)
+	}
+	top := doc.Find("table.fleet tbody tr").First()
+	href, ok := top.Find("td").Eq(1).Find("a").Attr("href")
+	if !ok {
+		t.Fatal("the fleet page lists no drive")
+	}
+	drive := get(href)
+	why := drive.Find("#findings article.finding").First()
+	if why.Length() == 0 || why.Find("table.evidence tbody tr").Length() == 0 || why.Find(".remedy").Length() == 0 {
+		t.Fatalf("the riskiest drive (%s) does not show why: %s", strings.Join(strings.Fields(top.Text()), " "), strings.Join(strings.Fields(drive.Find("#findings").Text()), " "))
 	}
 }

@@ -9,6 +9,7 @@ import (
 	"context"
 	"log/slog"
 	"net/http"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -57,6 +58,10 @@ type Config struct {
 	// answered 413.
 	MaxIngestBytes int64
 	MaxIngestRows  int
+	// Pages serves every path outside /api/ that no API route owns: the
+	// server-rendered pages (package web), handed in by main so that api
+	// does not depend on them. Nil answers such paths 404.
+	Pages http.Handler
 }
 
 // Server is kelvard's HTTP handler.
@@ -111,6 +116,13 @@ func New(cfg Config, st *store.Store, log *slog.Logger) (*Server, error) {
 	}
 	e.Use(s.recoverPanics, s.accessLog, s.securityHeaders)
 	e.NoRoute(func(c *gin.Context) {
+		if s.cfg.Pages != nil && !strings.HasPrefix(c.Request.URL.Path, "/api/") {
+			// gin presets 404 for an unmatched path; the pages answer
+			// with their own status, 200 unless they say otherwise.
+			c.Status(http.StatusOK)
+			s.cfg.Pages.ServeHTTP(c.Writer, c.Request)
+			return
+		}
 		writeProblem(c, Problem{Status: http.StatusNotFound, Detail: "no such endpoint; see /api/v1/openapi.json"})
 	})
 	e.NoMethod(func(c *gin.Context) {
