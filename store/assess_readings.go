@@ -5,6 +5,7 @@ import (
 	"database/sql"
 	"fmt"
 	"math"
+	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5/pgtype"
@@ -252,38 +253,109 @@ func sampleOf(at int64, v [10]float64) health.Sample {
 		FrequencyHz: v[5], BusV: v[6], BusRippleV: v[7], CapacitanceUF: v[8], ESRMilliohm: v[9]}
 }
 
-// advanceWatermark records how far a drive's readings are assessed. It
-// clears the recompute mark only when it is still the one the run started
-// from, so a late reading that arrived during the run keeps its mark; and
-// when readings landed inside the range the run covered without being seen
-// (an ingest that committed mid-run), it sets the mark so the next run
-// recomputes.
-func (s *Store) advanceWatermark(tx *gorm.DB, r *AssessResult) error {
-	if r.AssessedTo == nil {
+// advanceWatermarks records, for a batch of results, how far each drive's
+// readings are assessed, in three statements whatever the batch size:
+//
+//   - assessed_to moves to the newest reading each run took in (the row is
+//     made when missing);
+//   - recompute_from is cleared only where it still holds the mark the run
+//     started from, so a late reading that arrived during the run keeps
+//     its mark;
+//   - where readings exist in the range an incremental run covered,
+//     (ScannedAfter, AssessedTo], beyond the count it took in (an ingest
+//     committed mid-run), recompute_from is set so the next run recomputes.
+func (s *Store) advanceWatermarks(tx *gorm.DB, rs []AssessResult) error {
+	type row struct {
+		id      int64
+		to      time.Time
+		seen    *time.Time
+		after   *time.Time
+		scanned int64
+	}
+	var rows []row
+	for _, r := range rs {
+		if r.Retired || r.AssessedTo == nil {
+			continue
+		}
+		rows = append(rows, row{r.DriveID, *r.AssessedTo, r.RecomputeSeen, r.ScannedAfter, r.Scanned})
+	}
+	if len(rows) == 0 {
 		return nil
 	}
-	return s.advanceWatermarkTx(tx, r.DriveID, *r.AssessedTo, r.RecomputeSeen)
-}
+	bigint, ts := "CAST(? AS bigint)", "CAST(? AS timestamptz)"
+	same := "IS NOT DISTINCT FROM"
+	if s.dialect == SQLite {
+		ts, same = "CAST(? AS integer)", "IS"
+	}
+	// values makes a derived table of len(rows) rows, one placeholder per
+	// cell: SELECT … UNION ALL SELECT …, which both dialects take (SQLite
+	// has no column list on a VALUES alias).
+	values := func(n int, cols ...string) string {
+		parts := make([]string, len(cols))
+		for i, c := range cols {
+			name, typ, _ := strings.Cut(c, " ")
+			parts[i] = typ + " AS " + name
+		}
+		one := "SELECT " + strings.Join(parts, ", ")
+		return strings.TrimSuffix(strings.Repeat(one+" UNION ALL ", n), " UNION ALL ")
+	}
+	var args []any
+	for _, r := range rows {
+		args = append(args, r.id, s.timeArg(r.to))
+	}
+	if err := tx.Exec(`INSERT INTO drive_watermarks (drive_id, assessed_to, recompute_from)
+		SELECT v.drive_id, v.assessed_to, NULL FROM (`+values(len(rows), "drive_id "+bigint, "assessed_to "+ts)+`) AS v
+		WHERE true ON CONFLICT (drive_id) DO UPDATE SET assessed_to = excluded.assessed_to`, args...).Error; err != nil {
+		return fmt.Errorf("advance watermarks: %w", translate(err))
+	}
+	args = args[:0]
+	for _, r := range rows {
+		var seen any
+		if r.seen != nil {
+			seen = s.timeArg(*r.seen)
+		}
+		args = append(args, r.id, seen)
+	}
+	if err := tx.Exec(`UPDATE drive_watermarks SET recompute_from = NULL
+		FROM (`+values(len(rows), "drive_id "+bigint, "seen "+ts)+`) AS v
+		WHERE drive_watermarks.drive_id = v.drive_id AND drive_watermarks.recompute_from `+same+` v.seen`, args...).Error; err != nil {
+		return fmt.Errorf("clear recompute marks: %w", translate(err))
+	}
 
-// markMissed sets the recompute mark when readings exist in the range the
-// run covered, (ScannedAfter, AssessedTo], beyond the count it saw there:
-// an ingest that committed mid-run is caught by the next run.
-func (s *Store) markMissed(tx *gorm.DB, r *AssessResult) error {
-	if r.AssessedTo == nil || r.ScannedAfter == nil {
+	// Readings that landed in a covered range while the run was reading.
+	var checked []row
+	args = args[:0]
+	for _, r := range rows {
+		if r.after != nil {
+			checked = append(checked, r)
+			args = append(args, r.id, s.timeArg(*r.after), s.timeArg(r.to))
+		}
+	}
+	if len(checked) == 0 {
 		return nil
 	}
-	var n int64
-	err := tx.Raw("SELECT count(*) FROM readings WHERE drive_id = ? AND at > ? AND at <= ?",
-		r.DriveID, s.timeArg(*r.ScannedAfter), s.timeArg(*r.AssessedTo)).Scan(&n).Error
-	if err != nil {
-		return fmt.Errorf("count readings of drive %d: %w", r.DriveID, translate(err))
+	var counts []struct {
+		DriveID int64
+		N       int64
 	}
-	if n == r.Scanned {
-		return nil
+	if err := tx.Raw(`SELECT v.drive_id, count(r.drive_id) AS n
+		FROM (`+values(len(checked), "drive_id "+bigint, "after_at "+ts, "to_at "+ts)+`) AS v
+		LEFT JOIN readings r ON r.drive_id = v.drive_id AND r.at > v.after_at AND r.at <= v.to_at
+		GROUP BY v.drive_id`, args...).Scan(&counts).Error; err != nil {
+		return fmt.Errorf("count covered readings: %w", translate(err))
 	}
-	err = tx.Exec("UPDATE drive_watermarks SET recompute_from = ? WHERE drive_id = ?", s.timeArg(*r.ScannedAfter), r.DriveID).Error
-	if err != nil {
-		return fmt.Errorf("mark drive %d: %w", r.DriveID, translate(err))
+	byID := map[int64]row{}
+	for _, r := range checked {
+		byID[r.id] = r
+	}
+	for _, c := range counts {
+		r := byID[c.DriveID]
+		if c.N == r.scanned {
+			continue
+		}
+		if err := tx.Exec("UPDATE drive_watermarks SET recompute_from = ? WHERE drive_id = ?", s.timeArg(*r.after), r.id).Error; err != nil {
+			return fmt.Errorf("mark drive %d: %w", r.id, translate(err))
+		}
 	}
 	return nil
 }

@@ -18,12 +18,16 @@ import (
 // ledgers of the components fitted now, the last measured-capacitor report,
 // and bookkeeping for incremental runs.
 type DriveState struct {
-	DriveID              int64                           `gorm:"primaryKey"`
-	CapacitorComponentID *int64                          //
-	FanComponentID       *int64                          //
-	CapacitorState       health.CapacitorState           `gorm:"serializer:json"`
-	FanState             health.FanState                 `gorm:"serializer:json"`
-	Measured             *health.CapacitorMeasuredReport `gorm:"serializer:json"`
+	DriveID              int64                 `gorm:"primaryKey"`
+	CapacitorComponentID *int64                //
+	FanComponentID       *int64                //
+	CapacitorState       health.CapacitorState `gorm:"-"`
+	FanState             health.FanState       `gorm:"-"`
+	// CapacitorLedger and FanLedger are the states as stored, in the
+	// ledger's compact binary form (health.LifeLedger.MarshalBinary).
+	CapacitorLedger []byte                          `gorm:"column:capacitor_state"`
+	FanLedger       []byte                          `gorm:"column:fan_state"`
+	Measured        *health.CapacitorMeasuredReport `gorm:"serializer:json"`
 	// ParamsHash fingerprints every input the ledgers depend on; a change
 	// forces a full recompute of the drive.
 	ParamsHash string
@@ -252,7 +256,14 @@ func (s *Store) LoadAssessContexts(ctx context.Context, ids []int64, eventsFrom 
 		}
 	}
 	for i := range states {
-		byDrive[states[i].DriveID].State = &states[i]
+		st := &states[i]
+		if err := st.CapacitorState.UnmarshalBinary(st.CapacitorLedger); err != nil {
+			return nil, fmt.Errorf("drive %d capacitor ledger: %w", st.DriveID, err)
+		}
+		if err := st.FanState.UnmarshalBinary(st.FanLedger); err != nil {
+			return nil, fmt.Errorf("drive %d fan ledger: %w", st.DriveID, err)
+		}
+		byDrive[st.DriveID].State = st
 	}
 	for _, m := range marks {
 		c := byDrive[m.DriveID]
@@ -336,6 +347,7 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 		var states []DriveState
 		var rows []Assessment
 		var days []AssessmentDay
+		seenAt := map[time.Time][]int64{}
 		for i := range results {
 			r := &results[i]
 			at := time.Unix(r.Assessment.At, 0).UTC()
@@ -350,6 +362,13 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 			}
 			if r.SaveState {
 				r.State.DriveID, r.State.UpdatedAt = r.DriveID, at
+				var err error
+				if r.State.CapacitorLedger, err = r.State.CapacitorState.MarshalBinary(); err != nil {
+					return err
+				}
+				if r.State.FanLedger, err = r.State.FanState.MarshalBinary(); err != nil {
+					return err
+				}
 				states = append(states, r.State)
 			}
 			row, err := assessmentRow(r)
@@ -366,11 +385,12 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 				f.Evidence = finiteEvidence(f.Evidence)
 				cur[j] = f
 			}
-			opened, err := reconcileFindings(tx, FindingUpdate{DriveID: r.DriveID, SiteID: r.SiteID, AreaID: r.AreaID,
+			opened, seen, err := reconcileFindings(tx, FindingUpdate{DriveID: r.DriveID, SiteID: r.SiteID, AreaID: r.AreaID,
 				PositionID: r.PositionID, At: at, Current: cur, Evaluated: r.Assessment.Evaluated}, r.Existing, opts.ResolveAfter)
 			if err != nil {
 				return err
 			}
+			seenAt[at] = append(seenAt[at], seen...)
 			if opts.Notify {
 				for _, f := range opened {
 					if err := queueNotification(tx, f, at); err != nil {
@@ -378,12 +398,16 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 					}
 				}
 			}
-			if err := s.advanceWatermark(tx, r); err != nil {
-				return err
+		}
+		for at, ids := range seenAt {
+			for chunk := range slices.Chunk(ids, 500) {
+				if err := tx.Model(&Finding{}).Where("id IN ?", chunk).Update("last_seen_at", at).Error; err != nil {
+					return fmt.Errorf("refresh findings: %w", translate(err))
+				}
 			}
-			if err := s.markMissed(tx, r); err != nil {
-				return err
-			}
+		}
+		if err := s.advanceWatermarks(tx, results); err != nil {
+			return err
 		}
 		if len(states) > 0 {
 			if err := tx.Clauses(clause.OnConflict{UpdateAll: true}).CreateInBatches(states, 100).Error; err != nil {

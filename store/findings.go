@@ -247,13 +247,16 @@ type FindingUpdate struct {
 //   - findings of rules not evaluated are left alone.
 //
 // existing holds the drive's unresolved findings. It returns the findings
-// opened as critical, for notification.
-func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolveAfter time.Duration) ([]Finding, error) {
+// opened as critical, for notification, and the ids of findings whose only
+// change is the last-seen time, which the caller refreshes for a whole
+// batch in one statement.
+func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolveAfter time.Duration) ([]Finding, []int64, error) {
 	byRule := map[string]*Finding{}
 	for i := range existing {
 		byRule[existing[i].Rule] = &existing[i]
 	}
 	var opened []Finding
+	var seen []int64
 	for _, h := range u.Current {
 		if f, ok := byRule[h.Rule]; ok {
 			delete(byRule, h.Rule)
@@ -269,15 +272,13 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 			f.SiteID, f.AreaID, f.PositionID, f.ClearedAt = u.SiteID, u.AreaID, u.PositionID, nil
 			f.LastSeenAt = u.At
 			if !changed {
-				// Only the last-seen time moved: a narrow update keeps
-				// the frequent case cheap.
-				if err := tx.Model(&Finding{}).Where("id = ?", f.ID).Update("last_seen_at", u.At).Error; err != nil {
-					return nil, fmt.Errorf("refresh finding %d: %w", f.ID, translate(err))
-				}
+				// Only the last-seen time moved: the caller refreshes
+				// these in one statement per batch.
+				seen = append(seen, f.ID)
 				continue
 			}
 			if err := tx.Save(f).Error; err != nil {
-				return nil, fmt.Errorf("update finding %d: %w", f.ID, translate(err))
+				return nil, nil, fmt.Errorf("update finding %d: %w", f.ID, translate(err))
 			}
 			continue
 		}
@@ -288,7 +289,7 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 			f.Evidence = []health.Evidence{}
 		}
 		if err := tx.Create(&f).Error; err != nil {
-			return nil, fmt.Errorf("open finding %s for drive %d: %w", h.Rule, u.DriveID, translate(err))
+			return nil, nil, fmt.Errorf("open finding %s for drive %d: %w", h.Rule, u.DriveID, translate(err))
 		}
 		if f.Severity == health.SeverityCritical {
 			opened = append(opened, f)
@@ -305,10 +306,10 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 			f.Status, f.ResolvedAt, f.StatusReason = FindingResolved, &u.At, "condition cleared"
 		}
 		if err := tx.Select("cleared_at", "status", "resolved_at", "status_reason", "updated_at").Save(f).Error; err != nil {
-			return nil, fmt.Errorf("clear finding %d: %w", f.ID, translate(err))
+			return nil, nil, fmt.Errorf("clear finding %d: %w", f.ID, translate(err))
 		}
 	}
-	return opened, nil
+	return opened, seen, nil
 }
 
 func ptrVal(p *int64) []int64 {

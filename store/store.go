@@ -24,7 +24,6 @@ import (
 	"github.com/jackc/pgx/v5/stdlib"
 	"gorm.io/driver/postgres"
 	"gorm.io/gorm"
-	"gorm.io/gorm/logger"
 )
 
 // Dialect names the database behind a Store.
@@ -209,14 +208,6 @@ func (s *Store) tx(ctx context.Context, fn func(tx *gorm.DB) error) error {
 		}
 	}
 	return err
-}
-
-func newGormLogger(l *slog.Logger) logger.Interface {
-	return logger.NewSlogLogger(l, logger.Config{
-		SlowThreshold:             time.Second,
-		IgnoreRecordNotFoundError: true,
-		LogLevel:                  logger.Warn,
-	})
 }
 
 // errNoRows reports whether err means a query found nothing.

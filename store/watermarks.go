@@ -22,7 +22,7 @@ import (
 //     readings and its save; so the assessment, in the transaction that
 //     advances the watermark, counts the readings in the range it covered
 //     and sets RecomputeFrom when the count differs from what it took in
-//     (markMissed): no late reading is lost either way.
+//     (advanceWatermarks): no late reading is lost either way.
 type Watermark struct {
 	DriveID       int64      `json:"drive_id"`
 	AssessedTo    time.Time  `json:"assessed_to"`

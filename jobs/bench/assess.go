@@ -1,0 +1,307 @@
+package bench
+
+import (
+	"context"
+	"crypto/rand"
+	"database/sql"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"io"
+	"net/http"
+	"os"
+	"slices"
+	"strings"
+	"time"
+
+	"kelvard/jobs"
+	"kelvard/store"
+)
+
+// AssessConfig sets up `kelvard bench assess`.
+type AssessConfig struct {
+	// DatabaseURL is the PostgreSQL server the run uses (scratch schemas,
+	// dropped at the end).
+	DatabaseURL string
+	// Drives and ReadingsPerDrive size the fleet (default 1000 × 5000
+	// hourly readings).
+	Drives, ReadingsPerDrive int
+	// NewFraction is the share of new readings the incremental run takes
+	// in (default 0.01).
+	NewFraction float64
+	// ScrapeDrives is the fleet size of the /metrics scrape (default
+	// 10 000).
+	ScrapeDrives int
+	// Progress receives a line per step; nil discards them.
+	Progress io.Writer
+	// Executable is the kelvard binary started for the scrape (default:
+	// this process's own).
+	Executable string
+}
+
+// AssessReport holds the figures of one run.
+type AssessReport struct {
+	Machine          Machine
+	Drives           int
+	Readings         int
+	Full             time.Duration
+	Baseline         time.Duration
+	NewReadings      int
+	Incremental      time.Duration
+	ScrapeDrives     int
+	Scrape           time.Duration
+	ScrapeSeriesSize int
+}
+
+// FullRatio is the full assessment's time over the baseline query's
+// (target at most 1.0).
+func (r AssessReport) FullRatio() float64 { return r.Full.Seconds() / r.Baseline.Seconds() }
+
+// IncrementalRatio is the incremental run's time over the full one's
+// (target at most 0.05).
+func (r AssessReport) IncrementalRatio() float64 { return r.Incremental.Seconds() / r.Full.Seconds() }
+
+// Print writes the report.
+func (r AssessReport) Print(w io.Writer) {
+	fmt.Fprintf(w, "machine: %d CPUs, %s, %s, load average %s at start\n", r.Machine.CPUs, r.Machine.CPUModel, r.Machine.GoVersion, r.Machine.LoadAverage)
+	fmt.Fprintf(w, "fleet: %d drives × %d hourly readings = %d readings (PostgreSQL)\n", r.Drives, r.Readings/max(r.Drives, 1), r.Readings)
+	fmt.Fprintf(w, "full assessment     %10s\n", r.Full.Round(time.Millisecond))
+	fmt.Fprintf(w, "baseline SQL pass   %10s   ratio full/baseline %.2f (target ≤ 1.0)\n", r.Baseline.Round(time.Millisecond), r.FullRatio())
+	fmt.Fprintf(w, "incremental (+%d)   %10s   ratio incremental/full %.3f (target ≤ 0.05)\n", r.NewReadings, r.Incremental.Round(time.Millisecond), r.IncrementalRatio())
+	fmt.Fprintf(w, "/metrics scrape     %10s   with %d drives registered, %d bytes (target < 250 ms)\n", r.Scrape.Round(time.Millisecond), r.ScrapeDrives, r.ScrapeSeriesSize)
+}
+
+// baselineQuery is one window-function pass over the same readings that
+// computes the capacitor integral of a 5000 h / 105 °C part without
+// ripple, the yardstick the full assessment is measured against.
+const baselineQuery = `SELECT count(*) FROM (
+	SELECT drive_id, sum(dt_h / (l0_h * power(2, (t0_c - core_c) / 10.0)))
+	FROM (SELECT r.drive_id, r.internal_air_c AS core_c,
+	             date_part('epoch', r.at - lag(r.at) OVER (PARTITION BY r.drive_id ORDER BY r.at)) / 3600.0 AS dt_h,
+	             5000.0 AS l0_h, 105.0 AS t0_c
+	      FROM readings r) x
+	WHERE dt_h IS NOT NULL GROUP BY drive_id) y`
+
+// Assess measures the assessment on PostgreSQL: a full assessment of the
+// fleet against the baseline query over the same rows, an incremental run
+// after a small share of new readings against the full one, and a /metrics
+// scrape with a large fleet registered.
+func Assess(ctx context.Context, cfg AssessConfig) (AssessReport, error) {
+	if cfg.Drives <= 0 {
+		cfg.Drives = 1000
+	}
+	if cfg.ReadingsPerDrive <= 0 {
+		cfg.ReadingsPerDrive = 5000
+	}
+	if cfg.NewFraction <= 0 {
+		cfg.NewFraction = 0.01
+	}
+	if cfg.ScrapeDrives <= 0 {
+		cfg.ScrapeDrives = 10000
+	}
+	if cfg.Progress == nil {
+		cfg.Progress = io.Discard
+	}
+	if cfg.Executable == "" {
+		exe, err := os.Executable()
+		if err != nil {
+			return AssessReport{}, fmt.Errorf("find the kelvard executable: %w", err)
+		}
+		cfg.Executable = exe
+	}
+	if !strings.HasPrefix(cfg.DatabaseURL, "postgres://") && !strings.HasPrefix(cfg.DatabaseURL, "postgresql://") {
+		return AssessReport{}, errors.New("bench assess needs a PostgreSQL database: give --database-url postgres://…")
+	}
+	say := func(format string, args ...any) { fmt.Fprintf(cfg.Progress, format+"\n", args...) }
+	rep := AssessReport{Machine: thisMachine(), Drives: cfg.Drives}
+
+	admin, err := sql.Open("pgx", cfg.DatabaseURL)
+	if err != nil {
+		return rep, fmt.Errorf("open %s: %w", redact(cfg.DatabaseURL), err)
+	}
+	defer admin.Close()
+	tag := make([]byte, 4)
+	rand.Read(tag)
+	schema := "kelvard_bench_assess_" + hex.EncodeToString(tag)
+	if _, err := admin.ExecContext(ctx, "CREATE SCHEMA "+schema); err != nil {
+		return rep, fmt.Errorf("create scratch schema: %w", err)
+	}
+	defer func() {
+		cctx, cancel := context.WithTimeout(context.Background(), 2*time.Minute)
+		defer cancel()
+		if _, err := admin.ExecContext(cctx, "DROP SCHEMA IF EXISTS "+schema+" CASCADE"); err != nil {
+			say("drop scratch schema %s: %v", schema, err)
+		}
+	}()
+	dbURL, err := schemaURL(cfg.DatabaseURL, schema)
+	if err != nil {
+		return rep, err
+	}
+	now := time.Now().UTC().Truncate(time.Hour)
+	clock := now
+	st, err := store.Open(ctx, dbURL, store.Options{Now: func() time.Time { return clock }})
+	if err != nil {
+		return rep, err
+	}
+	defer st.Close()
+	if _, err := st.Migrate(ctx); err != nil {
+		return rep, err
+	}
+
+	// The fleet and its readings: ReadingsPerDrive hourly readings per
+	// drive, ending a little before now so the new share fits after them.
+	newPer := max(1, int(float64(cfg.ReadingsPerDrive)*cfg.NewFraction))
+	tl := newTimeline(now.Add(-time.Duration(newPer+1)*time.Hour), cfg.Drives*cfg.ReadingsPerDrive, cfg.Drives)
+	if err := st.EnsureReadingPartitions(ctx, tl.start, now); err != nil {
+		return rep, err
+	}
+	say("registering %d drives", cfg.Drives)
+	f, err := registerFleet(ctx, st, cfg.Drives, tl.start.Add(-24*time.Hour))
+	if err != nil {
+		return rep, err
+	}
+	say("loading %d readings", cfg.Drives*cfg.ReadingsPerDrive)
+	if err := loadReadings(ctx, st, tl, f.tags, 0, cfg.Drives*cfg.ReadingsPerDrive); err != nil {
+		return rep, err
+	}
+	rep.Readings = cfg.Drives * cfg.ReadingsPerDrive
+	if _, err := admin.ExecContext(ctx, "ANALYZE "+schema+".readings"); err != nil {
+		return rep, fmt.Errorf("analyze: %w", err)
+	}
+
+	as := jobs.NewAssessor(st, jobs.AssessConfig{Now: func() time.Time { return clock }})
+	say("full assessment")
+	start := time.Now()
+	if _, err := as.Assess(ctx, jobs.AssessOptions{Full: true}); err != nil {
+		return rep, err
+	}
+	rep.Full = time.Since(start)
+
+	say("baseline query")
+	conn, err := sql.Open("pgx", dbURL)
+	if err != nil {
+		return rep, err
+	}
+	defer conn.Close()
+	var times []time.Duration
+	for range 3 {
+		start = time.Now()
+		var n int
+		if err := conn.QueryRowContext(ctx, baselineQuery).Scan(&n); err != nil {
+			return rep, fmt.Errorf("baseline query: %w", err)
+		}
+		times = append(times, time.Since(start))
+	}
+	slices.Sort(times)
+	rep.Baseline = times[1] // the median of three
+
+	say("incremental assessment after %d new readings per drive", newPer)
+	tl2 := tl
+	tl2.hours += newPer
+	if err := loadReadings(ctx, st, tl2, f.tags, rep.Readings, rep.Readings+newPer*cfg.Drives); err != nil {
+		return rep, err
+	}
+	rep.NewReadings = newPer * cfg.Drives
+	clock = now.Add(time.Minute)
+	start = time.Now()
+	if _, err := as.Assess(ctx, jobs.AssessOptions{}); err != nil {
+		return rep, err
+	}
+	rep.Incremental = time.Since(start)
+
+	say("registering %d more drives for the /metrics scrape", cfg.ScrapeDrives-cfg.Drives)
+	if cfg.ScrapeDrives > cfg.Drives {
+		if err := bulkFleet(ctx, conn, cfg.ScrapeDrives-cfg.Drives, tl.start); err != nil {
+			return rep, err
+		}
+		clock = clock.Add(2 * time.Hour) // every drive is due again
+		if _, err := as.Assess(ctx, jobs.AssessOptions{}); err != nil {
+			return rep, err
+		}
+	}
+	rep.ScrapeDrives = max(cfg.ScrapeDrives, cfg.Drives)
+	// The scrape goes to the real server, as a process of its own.
+	srv, err := startServer(ctx, cfg.Executable, []string{"KELVARD_DATABASE_URL=" + dbURL, "KELVARD_SCHEDULER=off", "KELVARD_LOG_LEVEL=warn"})
+	if err != nil {
+		return rep, err
+	}
+	defer srv.stop()
+	times = times[:0]
+	client := &http.Client{Timeout: time.Minute}
+	for range 6 {
+		start = time.Now()
+		resp, err := client.Get(srv.base + "/metrics")
+		if err != nil {
+			return rep, fmt.Errorf("scrape /metrics: %w", err)
+		}
+		body, err := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if err != nil || resp.StatusCode != http.StatusOK {
+			return rep, fmt.Errorf("/metrics answered %d: %v", resp.StatusCode, err)
+		}
+		times = append(times, time.Since(start))
+		rep.ScrapeSeriesSize = len(body)
+	}
+	times = times[1:] // the first scrape warms the connection pool
+	slices.Sort(times)
+	rep.Scrape = times[len(times)/2]
+	return rep, nil
+}
+
+// loadReadings ingests readings [from, to) of the timeline through the
+// store's bulk ingest, in batches.
+func loadReadings(ctx context.Context, st *store.Store, tl timeline, tags []string, from, to int) error {
+	const batch = 50000
+	rows := make([]store.Reading, 0, batch)
+	for r := from; r < to; r++ {
+		rows = append(rows, tl.reading(r, tags))
+		if len(rows) == batch || r == to-1 {
+			if _, err := st.Ingest(ctx, rows, store.IngestOptions{}); err != nil {
+				return fmt.Errorf("load readings: %w", err)
+			}
+			rows = rows[:0]
+		}
+	}
+	return nil
+}
+
+// bulkFleet registers n more positions with a drive each, straight in SQL
+// (the register's own writes would take minutes for ten thousand units and
+// are not what is measured): one site, area and model, positions, drives,
+// their components and installations.
+func bulkFleet(ctx context.Context, db *sql.DB, n int, installedAt time.Time) error {
+	stmts := []string{
+		`INSERT INTO sites (name, elevation_m, time_zone, ambient_min_c, ambient_max_c, parameters, created_at, updated_at)
+		 VALUES ('Scrape works', 40, 'UTC', -5, 38, '{}', now(), now())`,
+		`INSERT INTO areas (site_id, name, env_location, env_sun, env_ambient_min_c, env_ambient_max_c, env_water, env_dust, env_oil,
+		   env_condensation, env_salt_air, env_corrosion, env_hazardous_classified, parameters, created_at, updated_at)
+		 SELECT id, 'Scrape hall', 'indoor', 'none', 5, 35, 'none', 'none', 'none', false, false, 'G1', false, '{}', now(), now()
+		 FROM sites WHERE name = 'Scrape works'`,
+		`INSERT INTO positions (site_id, area_id, tag, mounting, supply_voltage_v, supply_phases, supply_frequency_hz, carrier_khz,
+		   duty, criticality, created_at, updated_at)
+		 SELECT a.site_id, a.id, 'SP-' || lpad(g::text, 5, '0'), 'own_enclosure', 480, 3, 50, 4, 'normal', 'B', now(), now()
+		 FROM areas a, generate_series(1, $1) g WHERE a.name = 'Scrape hall'`,
+		`INSERT INTO drives (serial, model_id, site_id, status, position_id, manufactured_at, created_at, updated_at)
+		 SELECT 'SCRAPE-' || lpad(substr(p.tag, 4), 5, '0'), (SELECT min(id) FROM drive_models), p.site_id, 'installed', p.id,
+		   $1::timestamptz - interval '1 year', now(), now()
+		 FROM positions p WHERE p.tag LIKE 'SP-%'`,
+		`INSERT INTO installations (drive_id, position_id, installed_at, created_at, updated_at)
+		 SELECT d.id, d.position_id, $1::timestamptz, now(), now() FROM drives d WHERE d.serial LIKE 'SCRAPE-%'`,
+		`INSERT INTO components (drive_id, kind, installed_at, created_at, updated_at)
+		 SELECT d.id, k, d.manufactured_at, now(), now() FROM drives d, unnest(ARRAY['dc_bus_capacitors', 'cooling_fan']) k
+		 WHERE d.serial LIKE 'SCRAPE-%'`,
+	}
+	for i, q := range stmts {
+		var args []any
+		switch i {
+		case 2:
+			args = []any{n}
+		case 3, 4:
+			args = []any{installedAt}
+		}
+		if _, err := db.ExecContext(ctx, q, args...); err != nil {
+			return fmt.Errorf("register the scrape fleet (step %d): %w", i+1, err)
+		}
+	}
+	return nil
+}
