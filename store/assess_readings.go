@@ -322,11 +322,13 @@ func (s *Store) advanceWatermarks(tx *gorm.DB, rs []AssessResult) error {
 		return fmt.Errorf("clear recompute marks: %w", translate(err))
 	}
 
-	// Readings that landed in a covered range while the run was reading.
+	// Readings that landed in a covered range while the run was reading:
+	// one index probe per drive (a correlated count, which both planners
+	// run per row; a join lets PostgreSQL pick a scan of every reading).
 	var checked []row
 	args = args[:0]
 	for _, r := range rows {
-		if r.after != nil {
+		if r.after != nil && r.after.Before(r.to) {
 			checked = append(checked, r)
 			args = append(args, r.id, s.timeArg(*r.after), s.timeArg(r.to))
 		}
@@ -338,10 +340,9 @@ func (s *Store) advanceWatermarks(tx *gorm.DB, rs []AssessResult) error {
 		DriveID int64
 		N       int64
 	}
-	if err := tx.Raw(`SELECT v.drive_id, count(r.drive_id) AS n
-		FROM (`+values(len(checked), "drive_id "+bigint, "after_at "+ts, "to_at "+ts)+`) AS v
-		LEFT JOIN readings r ON r.drive_id = v.drive_id AND r.at > v.after_at AND r.at <= v.to_at
-		GROUP BY v.drive_id`, args...).Scan(&counts).Error; err != nil {
+	if err := tx.Raw(`SELECT v.drive_id,
+		(SELECT count(*) FROM readings r WHERE r.drive_id = v.drive_id AND r.at > v.after_at AND r.at <= v.to_at) AS n
+		FROM (`+values(len(checked), "drive_id "+bigint, "after_at "+ts, "to_at "+ts)+`) AS v`, args...).Scan(&counts).Error; err != nil {
 		return fmt.Errorf("count covered readings: %w", translate(err))
 	}
 	byID := map[int64]row{}

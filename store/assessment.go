@@ -48,22 +48,24 @@ func (DriveState) TableName() string { return "drive_state" }
 // Assessment is the latest health of one drive, with its contract fields
 // in columns (for lists, filters and metrics) and the whole report.
 type Assessment struct {
-	DriveID                   int64           `json:"drive_id" gorm:"primaryKey"`
-	SiteID                    int64           `json:"site_id"`
-	PositionID                *int64          `json:"position_id"`
-	At                        time.Time       `json:"at"`
-	CapacitorLifeUsedFraction float64         `json:"capacitor_life_used_fraction"`
-	CapacitorRemainingH       *float64        `json:"capacitor_remaining_h"`
-	CapacitorEndOfLife        *time.Time      `json:"capacitor_end_of_life"`
-	FanLifeUsedFraction       float64         `json:"fan_life_used_fraction"`
-	FanRemainingH             *float64        `json:"fan_remaining_h"`
-	FanEndOfLife              *time.Time      `json:"fan_end_of_life"`
-	AllowedCurrentA           *float64        `json:"allowed_current_a"`
-	UtilisationFraction       *float64        `json:"utilisation_fraction"`
-	HealthBand                health.Band     `json:"health_band"`
-	RiskScore                 float64         `json:"risk_score"`
-	HealthScore               float64         `json:"health_score"`
-	Report                    json.RawMessage `json:"report"`
+	DriveID                   int64       `json:"drive_id" gorm:"primaryKey"`
+	SiteID                    int64       `json:"site_id"`
+	PositionID                *int64      `json:"position_id"`
+	At                        time.Time   `json:"at"`
+	CapacitorLifeUsedFraction float64     `json:"capacitor_life_used_fraction"`
+	CapacitorRemainingH       *float64    `json:"capacitor_remaining_h"`
+	CapacitorEndOfLife        *time.Time  `json:"capacitor_end_of_life"`
+	FanLifeUsedFraction       float64     `json:"fan_life_used_fraction"`
+	FanRemainingH             *float64    `json:"fan_remaining_h"`
+	FanEndOfLife              *time.Time  `json:"fan_end_of_life"`
+	AllowedCurrentA           *float64    `json:"allowed_current_a"`
+	UtilisationFraction       *float64    `json:"utilisation_fraction"`
+	HealthBand                health.Band `json:"health_band"`
+	RiskScore                 float64     `json:"risk_score"`
+	HealthScore               float64     `json:"health_score"`
+	// Report is the whole health.DriveAssessment as JSON, kept as bytes:
+	// nothing queries inside it, and the database need not parse it.
+	Report json.RawMessage `json:"report" gorm:"type:bytea"`
 }
 
 // AssessmentDay is one drive's assessment on one UTC day, kept for trends.

@@ -34,7 +34,7 @@ CREATE TABLE assessments (
     health_band                   text NOT NULL,
     risk_score                    REAL NOT NULL,
     health_score                  REAL NOT NULL,
-    report                        TEXT NOT NULL
+    report                        BLOB NOT NULL
 );
 CREATE INDEX assessments_site_band ON assessments (site_id, health_band);
 CREATE INDEX assessments_risk ON assessments (risk_score DESC);
