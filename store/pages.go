@@ -2,6 +2,7 @@ package store
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"strings"
 	"time"
@@ -345,19 +346,17 @@ func (s *Store) Site(ctx context.Context, siteID int64) (SiteView, error) {
 	if err := db.Where("site_id = ?", siteID).Order("tag").Find(&positions).Error; err != nil {
 		return v, fmt.Errorf("positions of site %d: %w", siteID, translate(err))
 	}
-	encl := "a.report->'enclosure'"
-	if s.dialect == SQLite {
-		encl = "json_extract(a.report, '$.enclosure')"
-	}
 	var drives []struct {
 		PositionID int64
 		DriveID    int64
 		Serial     string
 		ModelName  string
 		HealthBand *string
-		Enclosure  *string
+		Report     []byte
 	}
-	err = db.Raw(`SELECT d.position_id, d.id AS drive_id, d.serial, m.name AS model_name, a.health_band, `+encl+` AS enclosure
+	// The report is stored as bytes (nothing else looks inside it), so
+	// the enclosure part is picked out here.
+	err = db.Raw(`SELECT d.position_id, d.id AS drive_id, d.serial, m.name AS model_name, a.health_band, a.report
 		FROM drives d JOIN drive_models m ON m.id = d.model_id LEFT JOIN assessments a ON a.drive_id = d.id
 		WHERE d.position_id IN (SELECT id FROM positions WHERE site_id = ?)`, siteID).Scan(&drives).Error
 	if err != nil {
@@ -380,8 +379,16 @@ func (s *Store) Site(ctx context.Context, siteID int64) (SiteView, error) {
 		if d.HealthBand != nil {
 			pv.HealthBand = health.Band(*d.HealthBand)
 		}
-		if d.Enclosure != nil && *d.Enclosure != "null" {
-			pv.Enclosure = []byte(*d.Enclosure)
+		if len(d.Report) > 0 {
+			var rep struct {
+				Enclosure json.RawMessage `json:"enclosure"`
+			}
+			if err := json.Unmarshal(d.Report, &rep); err != nil {
+				return v, fmt.Errorf("report of drive %d: %w", d.DriveID, err)
+			}
+			if len(rep.Enclosure) > 0 && string(rep.Enclosure) != "null" {
+				pv.Enclosure = rep.Enclosure
+			}
 		}
 	}
 	return v, nil
