@@ -102,12 +102,13 @@ func Open(ctx context.Context, rawURL string, opts Options) (*Store, error) {
 		if path == "" {
 			path = DefaultSQLitePath
 		}
-		db, err := gorm.Open(sqlite.Open(sqliteDSN(path)), cfg)
+		sqlDB, err := openSQLiteDB(sqliteDSN(path))
 		if err != nil {
 			return nil, fmt.Errorf("open sqlite %s: %w", path, err)
 		}
-		sqlDB, err := db.DB()
+		db, err := gorm.Open(&sqlite.Dialector{Conn: sqlDB}, cfg)
 		if err != nil {
+			sqlDB.Close()
 			return nil, fmt.Errorf("open sqlite %s: %w", path, err)
 		}
 		// One writer at a time is SQLite's rule; WAL lets readers go on
@@ -129,7 +130,8 @@ func Open(ctx context.Context, rawURL string, opts Options) (*Store, error) {
 // sqliteDSN turns a file path into a DSN with the pragmas kelvard relies
 // on: foreign keys enforced, write-ahead logging, a busy timeout so writers
 // wait instead of failing, and immediate transactions so a reader never has
-// to upgrade to a writer mid-transaction.
+// to upgrade to a writer mid-transaction (applied by openSQLiteDB, since the
+// driver drops _txlock when _time_format is given).
 func sqliteDSN(path string) string {
 	q := url.Values{}
 	q.Add("_pragma", "foreign_keys(1)")
