@@ -116,6 +116,10 @@ func translate(err error) error {
 			return fmt.Errorf("%w: %w", ErrReferenced, err)
 		case "57P01", "57P02", "57P03", "08000", "08003", "08006", "08001", "08004":
 			return fmt.Errorf("%w: %w", ErrUnavailable, err)
+		case "22021", "22P05":
+			// A NUL character or bytes that are not UTF-8 reached a text
+			// value: bad input that a check upstream let through.
+			return fmt.Errorf("%w: %w", &ValidationError{Fields: []FieldError{{Field: "text", Reason: "a value " + badTextReason}}}, err)
 		}
 	}
 	if isConnError(err) {
