@@ -2,9 +2,9 @@ package api_test
 
 import (
 	"context"
-	"errors"
 	"database/sql"
 	"encoding/json"
+	"errors"
 	"net/http"
 	"net/http/httptest"
 	"net/url"

@@ -21,7 +21,7 @@ func checkCursorError(t *testing.T, s string, err error) {
 // again) or is refused as a bad cursor; and every cursor EncodeCursor
 // makes decodes to its id.
 func FuzzDecodeCursor(f *testing.F) {
-	for _, s := range []string{"", EncodeCursor(0), EncodeCursor(41), EncodeCursor(1<<62), "eyJhIjotMX0", "eyJhIjoxLjV9", "eyJhIjoiMSJ9",
+	for _, s := range []string{"", EncodeCursor(0), EncodeCursor(41), EncodeCursor(1 << 62), "eyJhIjotMX0", "eyJhIjoxLjV9", "eyJhIjoiMSJ9",
 		"eyJhIjoxLCJhIjoyfQ", "e30", "bnVsbA", "W10", "eyJhIjo5MjIzMzcyMDM2ODU0Nzc1ODA4fQ", "%%%", "eyJhIjox fQ", "eyJhIjoxfQ=="} {
 		f.Add(s, int64(7))
 	}
