@@ -13,5 +13,7 @@
 //   - SIGTERM with a large readings POST and an assessment in flight: both
 //     finish, the process exits 0 and the job's row is finished.
 //
-// The package has no code of its own; everything is in its tests.
+// The tests run one at a time: each loads the machine (server processes,
+// assessments, a database cluster), and the rest of the suite runs beside
+// them. The package has no code of its own; everything is in its tests.
 package faults

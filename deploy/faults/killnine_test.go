@@ -61,11 +61,9 @@ func (l *ledger) ackCount() int {
 // came, and checks that every acknowledged reading (a 2xx received) is
 // stored exactly once: on PostgreSQL and SQLite, over several rounds.
 func TestKillNineDuringIngest(t *testing.T) {
-	t.Parallel()
 	for _, d := range storetest.Dialects {
 		t.Run(string(d), func(t *testing.T) {
-			t.Parallel()
-			testKillNine(t, d)
+					testKillNine(t, d)
 		})
 	}
 }

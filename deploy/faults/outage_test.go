@@ -19,9 +19,9 @@ import (
 // Shape of the outage test: enough readings that the assessment takes a
 // second or two, so the database can be stopped while it runs.
 const (
-	outageDrives    = 120
-	outagePerDrive  = 1500
-	outageBatchSize = 500
+	outageDrives    = 100
+	outagePerDrive  = 1200
+	outageBatchSize = 400
 	outageSenders   = 4
 	outageStep      = time.Hour
 	// outageBackoff is how long a sender waits after a 503 before it
@@ -38,7 +38,6 @@ const (
 // reading is stored once; and the assessment that follows equals an
 // undisturbed assessment of the same readings on another database.
 func TestPostgresOutage(t *testing.T) {
-	t.Parallel()
 	pg := newPGCluster(t)
 	url := pg.url("test")
 	st := openStore(t, url)

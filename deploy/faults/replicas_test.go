@@ -42,7 +42,6 @@ type logLine struct {
 // twice), and the logs show each tick run by one process only, the one its
 // row names, and no process firing a tick twice.
 func TestReplicasClaimEachTickOnce(t *testing.T) {
-	t.Parallel()
 	url := storetest.URL(t, store.Postgres)
 	st := openStore(t, url)
 	f := buildFleet(t, st, replicaDrives)
@@ -159,7 +158,6 @@ func runnerOf(t *testing.T, s *server) string {
 // TestSecondsScheduleIsTestOnly: without KELVARD_SCHEDULE_SECONDS a
 // six-field schedule is refused as a usage error.
 func TestSecondsScheduleIsTestOnly(t *testing.T) {
-	t.Parallel()
 	cmd := exec.Command(kelvardBin, "serve", "--listen", "127.0.0.1:0", "--assess-schedule", replicaSchedule)
 	cmd.Env = childEnv(map[string]string{"KELVARD_DATABASE_URL": storetest.URL(t, store.SQLite)})
 	out, err := cmd.CombinedOutput()
