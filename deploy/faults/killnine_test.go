@@ -63,7 +63,7 @@ func (l *ledger) ackCount() int {
 func TestKillNineDuringIngest(t *testing.T) {
 	for _, d := range storetest.Dialects {
 		t.Run(string(d), func(t *testing.T) {
-					testKillNine(t, d)
+			testKillNine(t, d)
 		})
 	}
 }

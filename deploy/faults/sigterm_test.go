@@ -33,7 +33,7 @@ const (
 func TestSigtermFinishesInFlightWork(t *testing.T) {
 	for _, d := range storetest.Dialects {
 		t.Run(string(d), func(t *testing.T) {
-					testSigterm(t, d)
+			testSigterm(t, d)
 		})
 	}
 }
