@@ -19,7 +19,7 @@ import (
 // BEGIN instead of failing with "database is locked" when a transaction
 // that has already read tries to write. The DSN asks for it with
 // _txlock=immediate, which the driver ignores when _time_format is also
-// given; the store makes the transactions immediate itself.
+// given, so the DSN gives no _time_format.
 func TestSQLiteTransactionsTakeTheWriteLockAtBegin(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()

@@ -102,13 +102,12 @@ func Open(ctx context.Context, rawURL string, opts Options) (*Store, error) {
 		if path == "" {
 			path = DefaultSQLitePath
 		}
-		sqlDB, err := openSQLiteDB(sqliteDSN(path))
+		db, err := gorm.Open(sqlite.Open(sqliteDSN(path)), cfg)
 		if err != nil {
 			return nil, fmt.Errorf("open sqlite %s: %w", path, err)
 		}
-		db, err := gorm.Open(&sqlite.Dialector{Conn: sqlDB}, cfg)
+		sqlDB, err := db.DB()
 		if err != nil {
-			sqlDB.Close()
 			return nil, fmt.Errorf("open sqlite %s: %w", path, err)
 		}
 		// One writer at a time is SQLite's rule; WAL lets readers go on
@@ -130,16 +129,18 @@ func Open(ctx context.Context, rawURL string, opts Options) (*Store, error) {
 // sqliteDSN turns a file path into a DSN with the pragmas kelvard relies
 // on: foreign keys enforced, write-ahead logging, a busy timeout so writers
 // wait instead of failing, and immediate transactions so a reader never has
-// to upgrade to a writer mid-transaction (applied by openSQLiteDB, since the
-// driver drops _txlock when _time_format is given).
+// to upgrade to a writer mid-transaction.
 func sqliteDSN(path string) string {
 	q := url.Values{}
 	q.Add("_pragma", "foreign_keys(1)")
 	q.Add("_pragma", "journal_mode(WAL)")
 	q.Add("_pragma", "busy_timeout(10000)")
 	q.Add("_pragma", "synchronous(NORMAL)")
+	// No _time_format: the driver's default already writes times as
+	// "2006-01-02 15:04:05.999999999-07:00", and in this driver version
+	// a _time_format option stops the options after it from being read,
+	// which would drop _txlock.
 	q.Set("_txlock", "immediate")
-	q.Set("_time_format", "sqlite")
 	return "file:" + path + "?" + q.Encode()
 }
 
