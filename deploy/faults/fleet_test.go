@@ -32,7 +32,6 @@ func openStore(t *testing.T, url string) *store.Store {
 // n positions, each with a drive installed since installedAt. Tags are
 // P-0001 … and serials SN-0001 ….
 type fleet struct {
-	n    int
 	tags []string
 	// driveIDs holds the id of the drive at tags[i].
 	driveIDs []int64
@@ -47,7 +46,7 @@ var installedAt = time.Date(2025, 1, 1, 0, 0, 0, 0, time.UTC)
 func buildFleet(t *testing.T, st *store.Store, n int) fleet {
 	t.Helper()
 	ctx := context.Background()
-	f := fleet{n: n}
+	var f fleet
 	var positions, drives, installations strings.Builder
 	positions.WriteString("site,area,tag,supply_voltage_v,duty,criticality\n")
 	drives.WriteString("serial,model,site,manufactured_at\n")
