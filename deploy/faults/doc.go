@@ -8,7 +8,7 @@
 //     during ingest and during an assessment: the server stays up, answers
 //     503 with Retry-After while the database is away, turns unready and
 //     ready again, and the assessment afterwards equals an undisturbed one;
-//   - two server processes on one database with a one-second schedule:
+//   - two server processes on one database with a two-second schedule:
 //     every scheduled tick runs once, none twice, none lost;
 //   - SIGTERM with a large readings POST and an assessment in flight: both
 //     finish, the process exits 0 and the job's row is finished.
