@@ -650,12 +650,16 @@ type jobFlags struct {
 	schedules   map[string]*string
 	staleAfter  time.Duration
 	stopTimeout time.Duration
+	// seconds lets schedules take a leading seconds field; test-only, set
+	// by KELVARD_SCHEDULE_SECONDS=1 (no flag) so process-level tests need
+	// not wait minutes for ticks.
+	seconds bool
 }
 
 // addJobFlags registers the scheduler flags on fs, their defaults taken
 // from the environment.
 func addJobFlags(fs *flag.FlagSet, getenv func(string) string) *jobFlags {
-	f := &jobFlags{schedules: map[string]*string{}}
+	f := &jobFlags{schedules: map[string]*string{}, seconds: getenv("KELVARD_SCHEDULE_SECONDS") == "1"}
 	fs.StringVar(&f.scheduler, "scheduler", envOr(getenv, "KELVARD_SCHEDULER", "on"),
 		"on: this replica fires the job schedules; off: it serves manual runs only (KELVARD_SCHEDULER)")
 	defaults := jobs.DefaultSchedules()
@@ -726,7 +730,7 @@ func (f *jobFlags) build(st *store.Store, log *slog.Logger, js []jobs.Job) (*job
 	for name, spec := range f.schedules {
 		schedules[name] = *spec
 	}
-	s, err := jobs.New(jobs.Config{Store: st, Jobs: js, Schedules: schedules, StaleAfter: f.staleAfter,
+	s, err := jobs.New(jobs.Config{Store: st, Jobs: js, Schedules: schedules, StaleAfter: f.staleAfter, Seconds: f.seconds,
 		Logger: log.With(slog.String("component", "jobs"))})
 	if err != nil {
 		return nil, usageError{err}

@@ -1,6 +1,7 @@
 package api
 
 import (
+	"fmt"
 	"time"
 
 	"github.com/gin-gonic/gin"
@@ -15,18 +16,31 @@ func queryTime(c *gin.Context, name string) (time.Time, bool) {
 	}
 	t, err := ParseTime(v)
 	if err != nil {
-		badRequest(c, name, "must be an RFC 3339 time such as 2026-01-31T00:00:00Z")
+		badRequest(c, name, "must be an RFC 3339 time in the years 0001 to 9999 (UTC), such as 2026-01-31T00:00:00Z")
 		return time.Time{}, false
 	}
 	return t, true
 }
 
+// Bounds of the times ParseTime accepts, in UTC: what RFC 3339 can write
+// back (years 0000 to 9999, and an offset can carry a time written in one
+// of them past either end) and PostgreSQL can read (it has no year 0).
+var (
+	minTime = time.Date(1, 1, 1, 0, 0, 0, 0, time.UTC)
+	maxTime = time.Date(9999, 12, 31, 23, 59, 59, 999999999, time.UTC)
+)
+
 // ParseTime reads an RFC 3339 time (with or without fractional seconds)
-// and returns it in UTC.
+// and returns it in UTC. A time that falls outside the years 0001 to 9999
+// in UTC is refused.
 func ParseTime(s string) (time.Time, error) {
 	t, err := time.Parse(time.RFC3339Nano, s)
 	if err != nil {
 		return time.Time{}, err
 	}
-	return t.UTC(), nil
+	t = t.UTC()
+	if t.Before(minTime) || t.After(maxTime) {
+		return time.Time{}, fmt.Errorf("time %q lies outside the years 0001 to 9999 in UTC", s)
+	}
+	return t, nil
 }

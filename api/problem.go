@@ -42,8 +42,12 @@ func writeProblem(c *gin.Context, p Problem) {
 	c.Data(p.Status, problemContentType, body)
 }
 
-// badRequest answers 400 with one named field.
+// badRequest answers 400 with one named field; a query parameter with no
+// name ("?=1") is named "query".
 func badRequest(c *gin.Context, field, format string, args ...any) {
+	if field == "" {
+		field = "query"
+	}
 	writeProblem(c, Problem{Status: http.StatusBadRequest, Detail: "the request cannot be read",
 		Errors: []store.FieldError{{Field: field, Reason: fmt.Sprintf(format, args...)}}})
 }

@@ -118,17 +118,9 @@ func (s *Scheduler) execute(ctx context.Context, e *entry, run store.JobRun, a *
 			fin.Error = reason
 		}
 	}
-	// Record the end even when the run's context is cancelled. The job
-	// stops counting as running here in the same step, so whoever sees the
-	// row finished may start the next run at once.
-	fctx, fcancel := context.WithTimeout(context.WithoutCancel(ctx), 10*time.Second)
-	defer fcancel()
-	s.mu.Lock()
-	final, ferr := s.store.FinishJobRun(fctx, run.ID, fin)
-	if s.running[e.name] == a {
-		delete(s.running, e.name)
-	}
-	s.mu.Unlock()
+	// Record the end even when the run's context is cancelled, and while
+	// the database is away (recordEnd).
+	final, ferr := s.recordEnd(ctx, e, a, run.ID, fin)
 	log := s.log.With(slog.String("job", e.name), slog.Int64("run", run.ID), slog.Time("tick", run.Tick),
 		slog.Bool("manual", run.Manual), slog.Duration("took", time.Since(start)), slog.Int64("drives", stats.Drives),
 		slog.Int64("readings", stats.Readings))

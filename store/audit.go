@@ -69,6 +69,15 @@ func (s *Store) Audit(ctx context.Context, q AuditQuery) (Page[AuditEntry], erro
 	if limit > MaxLimit {
 		return Page[AuditEntry]{}, Invalid("limit", "must be at most %d", MaxLimit)
 	}
+	var fe fieldErrors
+	for _, f := range [][2]string{{"resource", q.Resource}, {"actor", q.Actor}} {
+		if !goodText(f[1]) {
+			fe.add(f[0], "%s", badTextReason)
+		}
+	}
+	if err := fe.err(); err != nil {
+		return Page[AuditEntry]{}, err
+	}
 	db := s.db.WithContext(ctx).Model(&AuditEntry{})
 	if q.Resource != "" {
 		db = db.Where("resource = ?", q.Resource)

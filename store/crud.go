@@ -109,6 +109,10 @@ func applyFilters(q *gorm.DB, info *ResourceInfo, values map[string]string) (*go
 				fe.add(f.Param, "must be at most 200 characters")
 				continue
 			}
+			if !goodText(v) {
+				fe.add(f.Param, "%s", badTextReason)
+				continue
+			}
 			q = q.Where(f.Column+" = ?", v)
 		case FilterEnum:
 			if !hasField(f.Values, v) {
@@ -223,6 +227,9 @@ func insert[T any, P Record[T]](ctx context.Context, tx *gorm.DB, v *T) error {
 	if err := p.validate(ctx, tx); err != nil {
 		return err
 	}
+	if fe := textProblems(p); len(fe) > 0 {
+		return &ValidationError{Fields: fe}
+	}
 	if err := tx.Create(p).Error; err != nil {
 		return translate(err)
 	}
@@ -276,6 +283,9 @@ func update[T any, P Record[T]](ctx context.Context, tx *gorm.DB, d Dialect, id 
 	}
 	if err := p.validate(ctx, tx); err != nil {
 		return out, false, err
+	}
+	if fe := textProblems(p); len(fe) > 0 {
+		return out, false, &ValidationError{Fields: fe}
 	}
 	if skipUnchanged {
 		same, err := sameJSON(&before, p)

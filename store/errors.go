@@ -1,10 +1,14 @@
 package store
 
 import (
+	"database/sql/driver"
 	"errors"
 	"fmt"
+	"io"
+	"net"
 	"sort"
 	"strings"
+	"syscall"
 
 	"github.com/jackc/pgx/v5/pgconn"
 	"gorm.io/gorm"
@@ -112,6 +116,10 @@ func translate(err error) error {
 			return fmt.Errorf("%w: %w", ErrReferenced, err)
 		case "57P01", "57P02", "57P03", "08000", "08003", "08006", "08001", "08004":
 			return fmt.Errorf("%w: %w", ErrUnavailable, err)
+		case "22021", "22P05":
+			// A NUL character or bytes that are not UTF-8 reached a text
+			// value: bad input that a check upstream let through.
+			return fmt.Errorf("%w: %w", &ValidationError{Fields: []FieldError{{Field: "text", Reason: "a value " + badTextReason}}}, err)
 		}
 	}
 	if isConnError(err) {
@@ -130,14 +138,21 @@ func retryable(err error) bool {
 	return false
 }
 
-// isConnError reports whether err looks like a lost or refused connection.
+// isConnError reports whether err looks like a lost or refused connection:
+// a failed connect, a network error, or a connection cut short in the
+// middle of a message (the server went away abruptly).
 func isConnError(err error) bool {
-	var ce *pgconn.ConnectError
-	if errors.As(err, &ce) {
+	var (
+		ce *pgconn.ConnectError
+		oe *net.OpError
+	)
+	if errors.As(err, &ce) || errors.As(err, &oe) || errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, driver.ErrBadConn) ||
+		errors.Is(err, syscall.ECONNRESET) || errors.Is(err, syscall.ECONNREFUSED) || errors.Is(err, syscall.EPIPE) {
 		return true
 	}
 	msg := err.Error()
-	for _, s := range []string{"connection refused", "broken pipe", "connection reset", "bad connection", "server closed the connection", "conn closed", "failed to connect"} {
+	for _, s := range []string{"connection refused", "broken pipe", "connection reset", "bad connection", "server closed the connection",
+		"conn closed", "failed to connect", "unexpected EOF"} {
 		if strings.Contains(msg, s) {
 			return true
 		}

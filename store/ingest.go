@@ -144,6 +144,12 @@ func (s *Store) plan(ctx context.Context, db *gorm.DB, rows []Reading, opts Inge
 	// Checks that need no lookups.
 	for i := range rows {
 		r := &rows[i]
+		if !goodText(r.Position) {
+			flag(i, "position", "%s", badTextReason)
+		}
+		if !goodText(r.Site) {
+			flag(i, "site", "%s", badTextReason)
+		}
 		switch {
 		case r.At.IsZero():
 			flag(i, "at", "is required")
@@ -178,6 +184,9 @@ func (s *Store) plan(ctx context.Context, db *gorm.DB, rows []Reading, opts Inge
 	lastMonth := -1
 	for i := range rows {
 		r := &rows[i]
+		if !goodText(r.Position) || !goodText(r.Site) {
+			continue // flagged above; never looked up
+		}
 		pos, how := positions.resolve(r, fixed)
 		if !how.ok {
 			flag(i, how.field, "%s", how.reason)
@@ -324,7 +333,7 @@ func (s *Store) lookupPositions(ctx context.Context, db *gorm.DB, rows []Reading
 			switch {
 			case rows[i].PositionID > 0:
 				idSet[rows[i].PositionID] = struct{}{}
-			case rows[i].Position != "":
+			case rows[i].Position != "" && goodText(rows[i].Position):
 				tagSet[rows[i].Position] = struct{}{}
 			}
 		}

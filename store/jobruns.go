@@ -363,6 +363,9 @@ func (s *Store) JobRuns(ctx context.Context, q JobRunQuery) (Page[JobRun], error
 	if limit > MaxLimit {
 		return Page[JobRun]{}, Invalid("limit", "must be at most %d", MaxLimit)
 	}
+	if !goodText(q.Job) {
+		return Page[JobRun]{}, Invalid("job", "%s", badTextReason)
+	}
 	db := s.db.WithContext(ctx).Model(&JobRun{})
 	if q.Job != "" {
 		db = db.Where("job = ?", q.Job)

@@ -53,13 +53,22 @@ func encodeReadingCursor(at time.Time) string {
 	return base64.RawURLEncoding.EncodeToString(b)
 }
 
+// Bounds of a readings cursor's time (Unix microseconds): a reading's time
+// is written in RFC 3339, so it lies in the years 0001 to 9999. A cursor
+// outside them was not issued here, and its time could not be passed to
+// the database intact.
+var (
+	minCursorMicro = time.Date(1, 1, 1, 0, 0, 0, 0, time.UTC).UnixMicro()
+	maxCursorMicro = time.Date(9999, 12, 31, 23, 59, 59, 999999000, time.UTC).UnixMicro()
+)
+
 func decodeReadingCursor(s string) (int64, bool, error) {
 	if s == "" {
 		return 0, false, nil
 	}
 	b, err := base64.RawURLEncoding.DecodeString(s)
 	var c readingCursor
-	if err != nil || len(b) > 64 || json.Unmarshal(b, &c) != nil {
+	if err != nil || len(b) > 64 || json.Unmarshal(b, &c) != nil || c.After < minCursorMicro || c.After > maxCursorMicro {
 		return 0, false, Invalid("cursor", "is not a cursor this server issued")
 	}
 	return c.After, true, nil

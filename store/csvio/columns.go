@@ -292,7 +292,10 @@ func formatCell(v any) string {
 		}
 		return x.UTC().Format(time.RFC3339Nano)
 	case store.Parameters:
-		if len(x) == 0 {
+		// An empty object is written "{}", which reads back as a given,
+		// empty object (it clears overrides on import); an empty cell would
+		// read back as not given. Export leaves the cell empty instead.
+		if x == nil {
 			return ""
 		}
 		b, _ := json.Marshal(x)

@@ -109,7 +109,12 @@ func (x *exporter) row(v any, refs map[string]string) []string {
 			cells[i] = refs[c.name]
 			continue
 		}
-		cells[i] = formatCell(getModel(v, c))
+		val := getModel(v, c)
+		if p, ok := val.(store.Parameters); ok && len(p) == 0 {
+			// No overrides: an empty cell, which reads as "not given".
+			continue
+		}
+		cells[i] = formatCell(val)
 	}
 	return cells
 }

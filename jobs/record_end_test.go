@@ -1,0 +1,72 @@
+package jobs_test
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"log/slog"
+	"sync/atomic"
+	"testing"
+	"time"
+
+	"kelvard/jobs"
+	"kelvard/store"
+	"kelvard/store/storetest"
+)
+
+// TestRunEndRecordedAfterOutage: a run that fails because the database
+// went away cannot record its end at once either; the scheduler retries
+// until the database is back, so the row does not stay running (which
+// would refuse manual runs and skip scheduled ticks until its heartbeat
+// went stale), and the next run starts at once.
+func TestRunEndRecordedAfterOutage(t *testing.T) {
+	t.Parallel()
+	ctx := context.Background()
+	proxy, u := storetest.NewCutProxy(t, storetest.URL(t, store.Postgres))
+	st, err := store.Open(ctx, u, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { st.Close() })
+	if _, err := st.Migrate(ctx); err != nil {
+		t.Fatal(err)
+	}
+	var calls atomic.Int64
+	restored := make(chan struct{})
+	job := funcJob{name: "sweep", run: func(ctx context.Context, _ time.Time, _ func(int, int)) (jobs.Stats, error) {
+		if calls.Add(1) > 1 {
+			return jobs.Stats{Note: "swept"}, nil
+		}
+		// The database goes away in the middle of the run and comes
+		// back a moment later.
+		proxy.Cut()
+		go func() {
+			time.Sleep(800 * time.Millisecond)
+			proxy.Restore()
+			close(restored)
+		}()
+		return jobs.Stats{}, fmt.Errorf("sweep: %w", store.ErrUnavailable)
+	}}
+	logs := &logCounter{}
+	s := newScheduler(t, jobs.Config{Store: st, Jobs: []jobs.Job{job}, Logger: slog.New(logs)})
+
+	run, err := s.Run(ctx, "sweep", nil)
+	if !errors.Is(err, store.ErrUnavailable) {
+		t.Fatalf("run: %v, want the job's error", err)
+	}
+	<-restored
+	got, err := st.JobRun(ctx, run.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Status != store.JobFailed || got.FinishedAt == nil || got.Error != "the database is unavailable" {
+		t.Fatalf("row after the outage: %+v, want failed with its end recorded", got)
+	}
+	if logs.count("retrying to record the job run's end") != 1 || logs.count("end recorded once the database answered") != 1 {
+		t.Errorf("logs do not tell of the retries: %v", logs.msgs)
+	}
+	next, err := s.Run(ctx, "sweep", nil)
+	if err != nil || next.Status != store.JobSucceeded || next.Note != "swept" {
+		t.Fatalf("next run: %+v %v", next, err)
+	}
+}
