@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"strings"
 	"time"
+
+	"kelvard/health"
 )
 
 // The read queries behind the work order pages (package web), on the
@@ -227,4 +229,35 @@ func (s *Store) WorkLines(ctx context.Context, f WorkLinesFilter, limit int) ([]
 		rows[i].TaskTitle = rows[i].Task.Title()
 	}
 	return rows, nil
+}
+
+// OrderSpares returns, for the drive of each active line at a position on
+// an open order, the drives in stores at the order's site of the same
+// model, by serial: the spares a swap may put in. One query.
+func (s *Store) OrderSpares(ctx context.Context, orderID int64) (map[int64][]Drive, error) {
+	conds := []string{"l.work_order_id = ?", "l.state = 'active'", "l.position_id IS NOT NULL",
+		"o.status IN ('proposed', 'approved', 'scheduled')"}
+	args := []any{string(health.StatusInStores), orderID}
+	if p := PrincipalFrom(ctx); !p.AllSites() {
+		conds = append(conds, "o.site_id IN ?")
+		args = append(args, p.Sites)
+	}
+	var rows []struct {
+		ForDrive int64
+		Drive
+	}
+	q := `SELECT DISTINCT l.drive_id AS for_drive, sp.*
+		FROM work_order_lines l
+		JOIN work_orders o ON o.id = l.work_order_id
+		JOIN drives d ON d.id = l.drive_id
+		JOIN drives sp ON sp.model_id = d.model_id AND sp.site_id = o.site_id AND sp.status = ?
+		WHERE ` + strings.Join(conds, " AND ") + ` ORDER BY sp.serial`
+	if err := s.db.WithContext(ctx).Raw(q, args...).Scan(&rows).Error; err != nil {
+		return nil, fmt.Errorf("spares of work order %d: %w", orderID, translate(err))
+	}
+	out := map[int64][]Drive{}
+	for _, r := range rows {
+		out[r.ForDrive] = append(out[r.ForDrive], r.Drive)
+	}
+	return out, nil
 }

@@ -156,5 +156,25 @@ func TestWorkOrderPageQueries(t *testing.T) {
 		if _, err := s.WorkLines(ctx, store.WorkLinesFilter{}, 20); !isValidation(err) {
 			t.Errorf("no filter: %v", err)
 		}
+
+		// Spares for a swap: drives in stores at the order's site of the
+		// line's drive model; none for a done order or another site's token.
+		spare, err := store.Create(ctx, s, func(v *store.Drive) error {
+			v.Serial, v.ModelID, v.SiteID, v.ManufacturedAt = "SPARE-A", a.Model.ID, a.Site.ID, now.AddDate(-1, 0, 0)
+			return nil
+		})
+		if err != nil {
+			t.Fatal(err)
+		}
+		spares, err := s.OrderSpares(ctx, o1.ID)
+		if err != nil || len(spares[a.Drive.ID]) != 1 || spares[a.Drive.ID][0].ID != spare.ID || spares[a.Drive.ID][0].Serial != "SPARE-A" {
+			t.Errorf("spares of order %d: %+v, %v", o1.ID, spares, err)
+		}
+		if done, err := s.OrderSpares(ctx, o5.ID); err != nil || len(done) != 0 {
+			t.Errorf("spares of a done order: %+v, %v", done, err)
+		}
+		if other, err := s.OrderSpares(limited, o1.ID); err != nil || len(other) != 0 {
+			t.Errorf("spares seen by another site's token: %+v, %v", other, err)
+		}
 	})
 }
