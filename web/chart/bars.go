@@ -103,11 +103,13 @@ func Bars(s BarSpec) BarLayout {
 		}
 		l.Bars = append(l.Bars, b)
 		if i%every == 0 {
+			// Labels centre under their bar; only one near the drawing's
+			// edge is anchored inward, so labels never run into each other.
 			tk := Tick{Pos: round(cx), Label: c, Anchor: "middle"}
 			switch {
-			case tk.Pos > l.Right-40:
+			case tk.Pos > l.Width-30:
 				tk.Anchor = "end"
-			case tk.Pos < l.Left+30:
+			case tk.Pos < 30:
 				tk.Anchor = "start"
 			}
 			l.XTicks = append(l.XTicks, tk)
