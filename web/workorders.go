@@ -4,6 +4,7 @@ import (
 	"errors"
 	"net/http"
 	"net/url"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -69,7 +70,7 @@ func readWorkOrdersForm(q url.Values) (workOrdersForm, store.WorkOrdersFilter, e
 		filter.Overdue = true
 	default:
 		n, err := strconv.Atoi(f.Due)
-		if err != nil || !containsInt(dueWindows, n) {
+		if err != nil || !slices.Contains(dueWindows, n) {
 			bad = append(bad, "due")
 		}
 		filter.DueWithin = time.Duration(n) * 24 * time.Hour
@@ -91,15 +92,6 @@ func readWorkOrdersForm(q url.Values) (workOrdersForm, store.WorkOrdersFilter, e
 		return f, filter, errors.New("these filters have values kelvard does not know: " + strings.Join(bad, ", "))
 	}
 	return f, filter, filter.Validate()
-}
-
-func containsInt(xs []int, x int) bool {
-	for _, v := range xs {
-		if v == x {
-			return true
-		}
-	}
-	return false
 }
 
 // workOrders lists the work orders, earliest due first.
