@@ -296,7 +296,7 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	hs := srv.HTTPServer(*listen)
 	fmt.Fprintf(stdout, "kelvard %s serving on http://%s (%s store)\n", buildVersion(), displayAddr(ln.Addr()), st.Dialect())
 	if demoToken != "" {
-		fmt.Fprintf(stdout, "demo fleet: loading and assessing in the background; /readyz turns ready when done\n")
+		fmt.Fprintf(stdout, "demo fleet: loading, assessing and planning in the background; /readyz turns ready when done\n")
 		fmt.Fprintf(stdout, "admin token (shown once): %s\n", demoToken)
 	}
 	errc := make(chan error, 1)

@@ -19,10 +19,12 @@ import (
 	"time"
 
 	"github.com/PuerkitoBio/goquery"
+	"github.com/chromedp/chromedp"
 
 	"kelvard/jobs"
 	"kelvard/store"
 	"kelvard/store/storetest"
+	"kelvard/web/browsertest"
 )
 
 // syncBuffer is a bytes.Buffer safe for the server goroutine and the test.
@@ -435,7 +437,8 @@ func TestServeRefusesBadJobSettings(t *testing.T) {
 // TestServeDemoNewcomer is a newcomer's first minutes: `serve --demo`
 // prints an address and a token; in the pages they sign in with it, find
 // the riskiest drive at the top of the fleet, and open it to see why: its
-// findings with their evidence.
+// findings with their evidence. Then, in a headless browser, the same
+// newcomer goes on from the drive to its work order and approves it.
 func TestServeDemoNewcomer(t *testing.T) {
 	if testing.Short() {
 		t.Skip("loads the demo fleet")
@@ -485,6 +488,61 @@ func TestServeDemoNewcomer(t *testing.T) {
 	if why.Length() == 0 || why.Find("table.evidence tbody tr").Length() == 0 || why.Find(".remedy").Length() == 0 {
 		t.Fatalf("the riskiest drive (%s) does not show why: %s", strings.Join(strings.Fields(top.Text()), " "), strings.Join(strings.Fields(drive.Find("#findings").Text()), " "))
 	}
+	// The first planning pass ran before /readyz turned ready.
+	code, body := call(t, "GET", srv.base+"/api/v1/work-orders?status=proposed", m[1], "")
+	if code != http.StatusOK || !strings.Contains(string(body), `"status":"proposed"`) {
+		t.Fatalf("no proposed work orders once ready: %d %.300s", code, body)
+	}
+	t.Run("browser", func(t *testing.T) { newcomerBrowser(t, srv.base, m[1]) })
+}
+
+// newcomerBrowser walks the newcomer's way in Chromium, by the links and
+// buttons a person would use: the printed address, the sign-in form with
+// the printed token, the riskiest drive at the top of the fleet, why it is
+// risky, its work order, and the approval. Each page is checked with
+// axe-core and screenshotted (test-output/newcomer/).
+func newcomerBrowser(t *testing.T, base, token string) {
+	b := browsertest.New(t, base, "newcomer")
+	b.Open("/")
+	if loc := b.Location(); !strings.HasPrefix(loc, "/signin") {
+		t.Fatalf("the printed address leads to %s, want the sign-in form", loc)
+	}
+	b.Check("01-signin")
+	b.Do("sign in", chromedp.SendKeys(chromedp.CSS("#token"), token), chromedp.Submit(chromedp.CSS("#token")),
+		chromedp.WaitVisible(chromedp.CSS("table.fleet")))
+	b.Check("02-fleet")
+	if rank := strings.TrimSpace(b.Text("table.fleet tbody tr:first-child td:first-child")); rank != "1" {
+		t.Fatalf("the fleet's first row is rank %q", rank)
+	}
+	serial := strings.TrimSpace(b.Text("table.fleet tbody tr:first-child td:nth-child(3) a"))
+	b.Do("open the riskiest drive", chromedp.Click(chromedp.CSS("table.fleet tbody tr:first-child td:nth-child(3) a")),
+		chromedp.WaitVisible(chromedp.CSS("#findings")))
+	if h := b.Text("h1"); !strings.Contains(h, serial) {
+		t.Fatalf("the drive page is %q, want drive %s", h, serial)
+	}
+	evidence := browsertest.Value(b, "evidence", chromedp.Evaluate[int](`document.querySelectorAll("#findings article.finding:first-of-type table.evidence tbody tr").length`))
+	why := b.Text("#findings article.finding h3")
+	if evidence == 0 || why == "" {
+		t.Fatalf("the riskiest drive %s does not show why it is risky", serial)
+	}
+	b.Check("03-riskiest-drive")
+	b.Do("open its work order", chromedp.Click(chromedp.CSS("#work table.work tbody tr:first-child th a")),
+		chromedp.WaitVisible(chromedp.CSS(`form[action$="/approve"] button`)))
+	order := b.Location()
+	if n := browsertest.Value(b, "caution", chromedp.Evaluate[int](`document.querySelectorAll("main > .caution").length`)); n != 1 {
+		t.Error("the work order shows no safety caution")
+	}
+	b.Check("04-work-order")
+	b.Do("approve", chromedp.Click(chromedp.CSS(`form[action$="/approve"] button`)), chromedp.WaitVisible(chromedp.CSS("p.notice")))
+	if notice, status := b.Text("p.notice"), b.Text("h1 .status"); !strings.Contains(notice, "approved") || strings.TrimSpace(status) != "approved" {
+		t.Errorf("after approving: notice %q, status %q", notice, status)
+	}
+	b.Check("05-approved")
+	code, body := call(t, "GET", base+"/api/v1"+order, token, "")
+	if code != http.StatusOK || !strings.Contains(string(body), `"status":"approved"`) || !strings.Contains(string(body), `"approved_by":"token:`) {
+		t.Errorf("the API's %s after approving in the browser: %d %.300s", order, code, body)
+	}
+	t.Logf("the newcomer approved %s for drive %s: %s", order, serial, why)
 }
 
 // TestServeIngestLimits starts the server with the ingest limits set by

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"log/slog"
+	"slices"
 	"sync"
 	"time"
 
@@ -15,8 +16,9 @@ import (
 // DemoSeed is the random seed of the demo fleet `serve --demo` loads.
 const DemoSeed = 1
 
-// DemoSetup loads the demo fleet into an empty store in the background and
-// runs a first assessment; until both are done Ready reports what it is
+// DemoSetup loads the demo fleet into an empty store in the background,
+// runs a first assessment and then a first planning pass (when the
+// scheduler has the plan job); until all are done Ready reports what it is
 // waiting for, so /readyz stays unready.
 type DemoSetup struct {
 	mu     sync.Mutex
@@ -27,8 +29,8 @@ type DemoSetup struct {
 
 // StartDemo begins loading the demo fleet, generated to end at now, and
 // returns at once. When the store already holds a register it logs so and
-// leaves it alone. The first assessment runs through the scheduler, so it
-// is recorded like any run.
+// leaves it alone. The first assessment and the first planning pass run
+// through the scheduler, so they are recorded like any run.
 func StartDemo(ctx context.Context, st *store.Store, sched *Scheduler, now time.Time, log *slog.Logger) *DemoSetup {
 	d := &DemoSetup{status: "loading the demo fleet", done: make(chan struct{})}
 	go func() {
@@ -71,31 +73,51 @@ func (d *DemoSetup) run(ctx context.Context, st *store.Store, sched *Scheduler, 
 			slog.Duration("took", time.Since(start).Round(time.Millisecond)))
 	}
 	d.set("running the first assessment")
+	run, err := firstRun(ctx, sched, Assess)
+	if err != nil {
+		return fmt.Errorf("first assessment: %w", err)
+	}
+	log.Info("first assessment done", slog.String("note", run.Note))
+	// Planning proposes the first work orders from the assessment's
+	// findings and forecast, so the pages have work to approve at once.
+	if !slices.Contains(sched.Names(), Plan) {
+		log.Info("no plan job registered: no work orders are proposed")
+		return nil
+	}
+	d.set("running the first planning pass")
+	if run, err = firstRun(ctx, sched, Plan); err != nil {
+		return fmt.Errorf("first planning pass: %w", err)
+	}
+	log.Info("first planning pass done", slog.String("note", run.Note))
+	return nil
+}
+
+// firstRun runs a job once through the scheduler, so the run is recorded
+// like any other. When a scheduled tick got there first it waits for that
+// run and runs once more, so the whole fleet is covered after the load.
+func firstRun(ctx context.Context, sched *Scheduler, name string) (store.JobRun, error) {
 	for {
-		run, err := sched.Run(ctx, Assess, nil)
+		run, err := sched.Run(ctx, name, nil)
 		if errors.Is(err, ErrAlreadyRunning) {
-			// A scheduled tick got there first; wait for it and run once
-			// more so the whole fleet is assessed.
 			select {
 			case <-ctx.Done():
-				return ctx.Err()
+				return run, ctx.Err()
 			case <-time.After(time.Second):
 			}
 			continue
 		}
 		if err != nil {
-			return fmt.Errorf("first assessment: %w", err)
+			return run, err
 		}
 		if run.Status != store.JobSucceeded {
-			return fmt.Errorf("first assessment %s: %s", run.Status, run.Error)
+			return run, fmt.Errorf("%s: %s", run.Status, run.Error)
 		}
-		log.Info("first assessment done", slog.String("note", run.Note))
-		return nil
+		return run, nil
 	}
 }
 
-// Ready returns nil once the fleet is loaded and assessed, and otherwise
-// an error saying what is still going on.
+// Ready returns nil once the fleet is loaded, assessed and planned, and
+// otherwise an error saying what is still going on.
 func (d *DemoSetup) Ready(context.Context) error {
 	d.mu.Lock()
 	defer d.mu.Unlock()

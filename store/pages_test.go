@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"reflect"
 	"testing"
 	"time"
 
@@ -263,4 +264,40 @@ func TestSessionToken(t *testing.T) {
 func isValidation(err error) bool {
 	var ve *store.ValidationError
 	return errors.As(err, &ve)
+}
+
+// TestPlanningDataLives: the capacitor and fan life reports planning reads
+// (cut out of each assessment's report by the database) are the ones the
+// assessment saved, field for field.
+func TestPlanningDataLives(t *testing.T) {
+	t.Parallel()
+	forEachStore(t, func(t *testing.T, s *store.Store) {
+		ctx := context.Background()
+		a, b, now := pagesFleet(t, s)
+		d, err := s.LoadPlanningData(ctx)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, f := range []storetest.Fixture{a, b} {
+			got, ok := d.Lives[f.Drive.ID]
+			if !ok {
+				t.Fatalf("no life of drive %d", f.Drive.ID)
+			}
+			saved, err := s.LatestAssessment(ctx, f.Drive.ID)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var rep health.DriveAssessment
+			if err := json.Unmarshal(saved.Report, &rep); err != nil {
+				t.Fatal(err)
+			}
+			if !reflect.DeepEqual(got.Capacitor, rep.Capacitor.LifeReport) || !reflect.DeepEqual(got.Fan, rep.Fan.LifeReport) {
+				t.Errorf("drive %d: planning reads %+v / %+v, the report holds %+v / %+v", f.Drive.ID, got.Capacitor, got.Fan,
+					rep.Capacitor.LifeReport, rep.Fan.LifeReport)
+			}
+			if got.Capacitor.EndOfLifeAt == 0 || got.Capacitor.LifeUsedAtAssessmentFraction != 0.5 || !got.At.Equal(now) {
+				t.Errorf("drive %d: life %+v at %v", f.Drive.ID, got.Capacitor, got.At)
+			}
+		}
+	})
 }

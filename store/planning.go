@@ -84,7 +84,7 @@ func (s *Store) LoadPlanningData(ctx context.Context) (*PlanningData, error) {
 		Order("id").Find(&out.Findings).Error; err != nil {
 		return nil, fmt.Errorf("load findings: %w", translate(err))
 	}
-	if err := loadLives(ctx, db, out.Lives); err != nil {
+	if err := loadLives(ctx, db, s.dialect, out.Lives); err != nil {
 		return nil, err
 	}
 	return out, nil
@@ -109,8 +109,11 @@ func scopedMap[T any, P Record[T]](ctx context.Context, db *gorm.DB) (map[int64]
 var assessmentScope = &ResourceInfo{Name: "assessments", Table: "assessments", scope: "site_id IN ?"}
 
 // loadLives decodes the life reports of the latest assessments in batches,
-// so a large fleet's full reports are never all in memory at once.
-func loadLives(ctx context.Context, db *gorm.DB, into map[int64]AssessmentLife) error {
+// so a large fleet's full reports are never all in memory at once. Only
+// the capacitor and fan parts of each report are read from the database:
+// decoding whole reports costs several times more than the rest of the
+// planning data.
+func loadLives(ctx context.Context, db *gorm.DB, dialect Dialect, into map[int64]AssessmentLife) error {
 	type row struct {
 		DriveID    int64
 		SiteID     int64
@@ -118,24 +121,34 @@ func loadLives(ctx context.Context, db *gorm.DB, into map[int64]AssessmentLife) 
 		At         time.Time
 		RiskScore  float64
 		HealthBand health.Band
-		Report     json.RawMessage
+		// Parts is the JSON array [capacitor, fan] of the report's parts,
+		// cut out by the database in one pass over the report.
+		Parts []byte
+	}
+	parts := "jsonb_build_array(report->'capacitor', report->'fan') AS parts"
+	if dialect == SQLite {
+		parts = "json_extract(report, '$.capacitor', '$.fan') AS parts"
 	}
 	var batch []row
 	var decodeErr error
 	res := scoped(ctx, db.Table("assessments"), assessmentScope).
-		Select("drive_id, site_id, position_id, at, risk_score, health_band, report").Order("drive_id").
+		Select("drive_id, site_id, position_id, at, risk_score, health_band, "+parts).Order("drive_id").
 		FindInBatches(&batch, 500, func(tx *gorm.DB, _ int) error {
 			for _, r := range batch {
-				var rep struct {
-					Capacitor health.LifeReport `json:"capacitor"`
-					Fan       health.LifeReport `json:"fan"`
-				}
-				if err := json.Unmarshal(r.Report, &rep); err != nil {
-					decodeErr = fmt.Errorf("decode assessment of drive %d: %w", r.DriveID, err)
+				var lives [2]*health.LifeReport
+				if err := json.Unmarshal(r.Parts, &lives); err != nil {
+					decodeErr = fmt.Errorf("decode the capacitor and fan life of drive %d's assessment: %w", r.DriveID, err)
 					return decodeErr
 				}
-				into[r.DriveID] = AssessmentLife{DriveID: r.DriveID, SiteID: r.SiteID, PositionID: r.PositionID, At: r.At.UTC(),
-					RiskScore: r.RiskScore, HealthBand: r.HealthBand, Capacitor: rep.Capacitor, Fan: rep.Fan}
+				l := AssessmentLife{DriveID: r.DriveID, SiteID: r.SiteID, PositionID: r.PositionID, At: r.At.UTC(),
+					RiskScore: r.RiskScore, HealthBand: r.HealthBand}
+				if lives[0] != nil {
+					l.Capacitor = *lives[0]
+				}
+				if lives[1] != nil {
+					l.Fan = *lives[1]
+				}
+				into[r.DriveID] = l
 			}
 			return nil
 		})

@@ -44,6 +44,11 @@ func BenchmarkPages(b *testing.B) {
 				b.Fatalf("a finding: %v", err)
 			}
 			site := largestSite(b, f)
+			lines, err := f.st.WorkLines(ctx, store.WorkLinesFilter{DriveID: r.DriveID}, 1)
+			if err != nil || len(lines) == 0 {
+				b.Fatalf("the riskiest drive's work order: %v", err)
+			}
+			order := lines[0].WorkOrderID
 			pages := []struct{ name, path string }{
 				{"signin", "/signin"},
 				{"fleet", "/fleet"},
@@ -56,6 +61,14 @@ func BenchmarkPages(b *testing.B) {
 				{"findings", "/findings"},
 				{"finding", fmt.Sprintf("/findings/%d", finding.Rows[0].ID)},
 				{"settings", "/settings"},
+				{"work_orders", "/work-orders"},
+				{"work_orders_all", "/work-orders?status=all"},
+				{"work_order", fmt.Sprintf("/work-orders/%d", order)},
+				{"work_order_print", fmt.Sprintf("/work-orders/%d/print", order)},
+				{"forecast", "/forecast"},
+				{"forecast_120", "/forecast?horizon=120"},
+				{"reliability", "/reliability"},
+				{"reliability_fleet_any", "/reliability?dimension=fleet&mode=any"},
 			}
 			for _, p := range pages {
 				b.Run(p.name, func(b *testing.B) {

@@ -18,6 +18,10 @@ type chartView struct {
 	Title   string
 	Caption string
 	Layout  chart.Layout
+	// Bars or Prob, when set, draw a stacked bar chart or a Weibull
+	// probability plot instead of the time series in Layout.
+	Bars    *chart.BarLayout
+	Prob    *chart.ProbLayout
 	Legend  []legendItem
 	Summary []string
 	Table   dataTable
@@ -25,9 +29,13 @@ type chartView struct {
 	Empty string
 }
 
-// legendItem names a line, area or reference line and its look.
+// legendItem names a line, area, reference line, bar part or plotted
+// group (Kind "line", "area", "rule", "bar" or "marker") and its look;
+// Marker is a marker's shape and Line whether a fitted line goes with it.
 type legendItem struct {
 	Name, Class, Kind string
+	Marker            string
+	Line              bool
 }
 
 // dataTable is a chart's values as a table.

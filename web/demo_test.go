@@ -14,6 +14,7 @@ import (
 	"github.com/PuerkitoBio/goquery"
 
 	"kelvard/jobs"
+	"kelvard/jobs/plan"
 	"kelvard/store"
 	"kelvard/store/demo"
 	"kelvard/store/storetest"
@@ -37,8 +38,9 @@ type fleet struct {
 }
 
 // loadFleet loads the demo fleet (store/demo Generate(1, 2026-11-30) and
-// Load, then a first assessment, as jobs/demo_test.go does) into a fresh
-// store of dialect d. It takes about 20 s.
+// Load, then a first assessment, as jobs/demo_test.go does, and a first
+// planning pass, as serve --demo does) into a fresh store of dialect d. It
+// takes about 20 s.
 func loadFleet(tb testing.TB, d store.Dialect) *fleet {
 	tb.Helper()
 	now := demoNow
@@ -49,6 +51,9 @@ func loadFleet(tb testing.TB, d store.Dialect) *fleet {
 		tb.Fatal(err)
 	}
 	if _, err := jobs.NewAssessor(st, jobs.AssessConfig{Now: clock}).Assess(ctx, jobs.AssessOptions{}); err != nil {
+		tb.Fatal(err)
+	}
+	if _, _, err := plan.Refresh(ctx, st, plan.Config{}); err != nil {
 		tb.Fatal(err)
 	}
 	h, err := New(st, Config{SessionKey: []byte(strings.Repeat("k", 32))})

@@ -35,7 +35,13 @@ type drivePage struct {
 	// ForPosition is true when the page is a position's page showing the
 	// drive standing there.
 	ForPosition bool
+	// Work are the drive's lines on work orders: OpenWork those still to
+	// do, PastWork the most recent done or cancelled.
+	OpenWork, PastWork []store.WorkLineRow
 }
+
+// driveWorkLines is how many of a drive's work order lines its page lists.
+const driveWorkLines = 30
 
 // deratingView is the allowed-current breakdown: rated current times each
 // factor.
@@ -163,6 +169,17 @@ func (h *Handler) loadDrive(r *http.Request, id int64) (*drivePage, int, string,
 	p.Findings = sortFindings(page.Items)
 	for _, f := range p.Findings {
 		p.PhysicalWork = p.PhysicalWork || f.PhysicalWork
+	}
+	work, err := h.st.WorkLines(ctx, store.WorkLinesFilter{DriveID: id}, driveWorkLines)
+	if err != nil {
+		return nil, 0, "", err
+	}
+	for _, l := range work {
+		if l.OrderStatus.Open() {
+			p.OpenWork = append(p.OpenWork, l)
+		} else {
+			p.PastWork = append(p.PastWork, l)
+		}
 	}
 	u := viewerFrom(ctx).Units
 	// Life history reaches back to the older part's fitting, at most ten

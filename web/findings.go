@@ -125,6 +125,8 @@ type findingPage struct {
 	SuppressD string
 	MaxD      string
 	Back      string
+	// Work are the work order lines this finding caused or is named in.
+	Work []store.WorkLineRow
 }
 
 // finding shows one finding.
@@ -166,6 +168,10 @@ func (h *Handler) showFinding(w http.ResponseWriter, r *http.Request, id int64, 
 			return
 		}
 		p.Position = &pos
+	}
+	if p.Work, err = h.st.WorkLines(ctx, store.WorkLinesFilter{FindingID: id}, 20); err != nil {
+		h.fail(w, r, err)
+		return
 	}
 	h.render(w, r, status, "finding", "Finding: "+f.Message, "findings", p)
 }

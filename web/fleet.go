@@ -31,11 +31,13 @@ type fleetPage struct {
 	Summary   store.FleetSummary
 	Bands     []choiceCount
 	EndOfLife []choiceCount
-	Rows      []store.FleetRow
-	First     int
-	Prev      string
-	Next      string
-	Filtered  bool
+	// Work counts the open work orders by status, and the overdue ones.
+	Work     []choiceCount
+	Rows     []store.FleetRow
+	First    int
+	Prev     string
+	Next     string
+	Filtered bool
 	// Narrowed is true when a filter other than band and end of life
 	// applies (the counts above the list follow those).
 	Narrowed  bool
@@ -133,7 +135,13 @@ func (h *Handler) fleet(w http.ResponseWriter, r *http.Request) {
 		h.fail(w, r, err)
 		return
 	}
-	p := fleetPage{Form: form, Places: places, Summary: view.Summary, Rows: view.Rows, First: (form.Page-1)*fleetPageSize + 1, Now: now}
+	counts, err := h.st.CountWorkOrders(ctx, now)
+	if err != nil {
+		h.fail(w, r, err)
+		return
+	}
+	p := fleetPage{Form: form, Places: places, Summary: view.Summary, Rows: view.Rows, First: (form.Page-1)*fleetPageSize + 1, Now: now,
+		Work: workOrderCounts(counts, workOrdersForm{})}
 	for _, b := range health.Bands() {
 		p.Bands = append(p.Bands, choiceCount{Key: string(b), Label: bandLabel(b), N: view.Summary.Bands[b],
 			Link: "/fleet?" + with(q, "band", string(b), string(b) == form.Band), Current: string(b) == form.Band})

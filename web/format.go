@@ -10,6 +10,7 @@ import (
 
 	"kelvard/health"
 	"kelvard/store"
+	"kelvard/web/chart"
 )
 
 // funcs are the template functions: formatting only, no store access.
@@ -36,6 +37,16 @@ func funcs() template.FuncMap {
 		"hours":      hours,
 		"hoursp":     hoursP,
 		"args":       args,
+		"money":      money,
+		"month":      monthLabel,
+		"monthOf":    func(t time.Time) string { return t.UTC().Format("Jan 2006") },
+		"prio":       priorityWord,
+		"modeLabel":  modeLabel,
+		"action":     func(a store.WorkAction) string { return actionLabel(a) },
+		"hoursShort": hoursShort,
+		"groupNote":  groupNote,
+		"marker":     chart.MarkerPath,
+		"overdue":    func(t time.Time, now time.Time) bool { return t.Before(now) },
 	}
 }
 

@@ -39,8 +39,14 @@ func TestPagesOnDemoFleet(t *testing.T) {
 			t.Run("site limit", func(t *testing.T) { testSiteLimit(t, f) })
 			t.Run("units", func(t *testing.T) { testUnits(t, f) })
 			t.Run("self-contained", func(t *testing.T) { testSelfContained(t, f) })
+			t.Run("work orders", func(t *testing.T) { testWorkOrders(t, f) })
+			t.Run("work order", func(t *testing.T) { testWorkOrder(t, f) })
+			t.Run("forecast", func(t *testing.T) { testForecast(t, f) })
+			t.Run("reliability", func(t *testing.T) { testReliability(t, f) })
+			t.Run("planning site limit", func(t *testing.T) { testPlanningSiteLimit(t, f) })
 			t.Run("newcomer", func(t *testing.T) { testNewcomer(t, f) })
 			t.Run("finding actions", func(t *testing.T) { testFindingActions(t, f) })
+			t.Run("work order actions", func(t *testing.T) { testWorkOrderActions(t, f) })
 			if d == store.SQLite {
 				t.Run("browser", func(t *testing.T) { browserTests(t, f) })
 			}
@@ -653,7 +659,9 @@ func testUnits(t *testing.T, f *fleet) {
 func testSelfContained(t *testing.T, f *fleet) {
 	c := f.signedIn(t, f.viewer)
 	r := riskiest(t, f)
-	for _, p := range []string{"/fleet", "/sites", fmt.Sprintf("/drives/%d", r.DriveID), "/findings", "/settings"} {
+	_, order := riskiestOrder(t, f)
+	for _, p := range []string{"/fleet", "/sites", fmt.Sprintf("/drives/%d", r.DriveID), "/findings", "/settings", "/work-orders",
+		fmt.Sprintf("/work-orders/%d", order), fmt.Sprintf("/work-orders/%d/print", order), "/forecast", "/reliability"} {
 		res, doc := c.get(p)
 		if csp := res.Header.Get("Content-Security-Policy"); !strings.Contains(csp, "default-src 'none'") || !strings.Contains(csp, "frame-ancestors 'none'") {
 			t.Errorf("%s: CSP %q", p, csp)
@@ -667,7 +675,9 @@ func testSelfContained(t *testing.T, f *fleet) {
 				t.Errorf("%s loads %s", p, u)
 			}
 		})
-		if doc.Find("html[lang=en]").Length() != 1 || doc.Find("main#main").Length() != 1 || doc.Find(`a.skip[href="#main"]`).Length() != 1 {
+		// The print view has no navigation to skip.
+		print := strings.HasSuffix(p, "/print")
+		if doc.Find("html[lang=en]").Length() != 1 || doc.Find("main#main").Length() != 1 || (!print && doc.Find(`a.skip[href="#main"]`).Length() != 1) {
 			t.Errorf("%s lacks lang, main or the skip link", p)
 		}
 		if doc.Find("h1").Length() != 1 {
@@ -681,7 +691,8 @@ func testSelfContained(t *testing.T, f *fleet) {
 }
 
 // testNewcomer follows a newcomer: sign in with the printed token, find the
-// riskiest drive on the fleet page, open it and see why it is risky.
+// riskiest drive on the fleet page, open it and see why it is risky, then
+// follow its work order and approve it.
 func testNewcomer(t *testing.T, f *fleet) {
 	c := f.newClient(t)
 	res, _ := c.get("/")
@@ -711,6 +722,28 @@ func testNewcomer(t *testing.T, f *fleet) {
 		t.Fatal("the riskiest drive's page does not say why it is risky")
 	}
 	t.Logf("riskiest drive %s: %s", text(doc.Find("h1")), text(why.Find("h3")))
+	order := doc.Find("#work table.work tbody tr th a").First()
+	href = order.AttrOr("href", "")
+	if href == "" {
+		t.Fatal("the riskiest drive's page links no work order")
+	}
+	doc = c.page(href)
+	approve := doc.Find(`form[action$="/approve"]`)
+	if approve.Length() != 1 || text(approve.Find("button")) != "Approve this order" {
+		t.Fatalf("the work order %s offers no approval", href)
+	}
+	res, _ = c.post(approve.AttrOr("action", ""), url.Values{"csrf": {approve.Find(`input[name="csrf"]`).AttrOr("value", "")}})
+	if res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("approve: %d", res.StatusCode)
+	}
+	doc = c.page(res.Header.Get("Location"))
+	var id int64
+	fmt.Sscanf(href, "/work-orders/%d", &id)
+	o, err := f.st.GetWorkOrder(context.Background(), id)
+	if err != nil || o.Status != store.OrderApproved || !strings.Contains(text(doc.Find("p.notice")), "approved") ||
+		text(doc.Find("h1 .status")) != "approved" {
+		t.Errorf("after approving, order %d is %s (%v), page says %q", id, o.Status, err, text(doc.Find("p.notice")))
+	}
 }
 
 // testFindingActions acknowledges and suppresses findings through the

@@ -23,7 +23,8 @@ var assetFS embed.FS
 
 // pageFiles lists the page templates; each defines "title" and "content"
 // and is parsed with the layout and the shared partials.
-var pageFiles = []string{"signin", "fleet", "sites", "site", "drive", "position", "findings", "finding", "settings", "error"}
+var pageFiles = []string{"signin", "fleet", "sites", "site", "drive", "position", "findings", "finding", "settings", "error",
+	"workorders", "workorder", "workorder_print", "forecast", "reliability"}
 
 // parsePages parses every page with the layout.
 func parsePages() (map[string]*template.Template, error) {
@@ -57,13 +58,20 @@ type layout struct {
 // render writes a page with its status. The page is rendered into memory
 // first, so a template error answers 500 instead of half a page.
 func (h *Handler) render(w http.ResponseWriter, r *http.Request, status int, name, title, nav string, body any) {
+	h.renderFrame(w, r, status, name, "layout", h.cssPath, title, nav, body)
+}
+
+// renderFrame writes a page inside the named frame: "layout" (navigation
+// and footer around the content) or "printframe" (the content alone, for
+// paper), with the given style sheet.
+func (h *Handler) renderFrame(w http.ResponseWriter, r *http.Request, status int, name, frame, css, title, nav string, body any) {
 	t, ok := h.pages[name]
 	if !ok {
 		h.serverError(w, r, fmt.Errorf("no page template %q", name))
 		return
 	}
 	v := viewerFrom(r.Context())
-	data := layout{Title: title, Nav: nav, NavAll: navigation(), Who: v, CSS: h.cssPath, Path: r.URL.RequestURI(), Body: body,
+	data := layout{Title: title, Nav: nav, NavAll: navigation(), Who: v, CSS: css, Path: r.URL.RequestURI(), Body: body,
 		Notice: noticeText(r.URL.Query().Get("done"))}
 	if v != nil {
 		data.U = v.Units
@@ -71,7 +79,7 @@ func (h *Handler) render(w http.ResponseWriter, r *http.Request, status int, nam
 		data.U = unitsFromCookie(uc.Value)
 	}
 	var buf bytes.Buffer
-	if err := t.ExecuteTemplate(&buf, "layout", data); err != nil {
+	if err := t.ExecuteTemplate(&buf, frame, data); err != nil {
 		h.serverError(w, r, fmt.Errorf("render %s: %w", name, err))
 		return
 	}
@@ -89,6 +97,14 @@ func noticeText(done string) string {
 		return "The finding is suppressed until the date given."
 	case "units":
 		return "Your display units are saved in this browser."
+	case "approved":
+		return "The work order is approved. Schedule it when the date is known."
+	case "scheduled":
+		return "The work order is scheduled."
+	case "completed":
+		return "The work order is recorded as done. Replaced parts start a new life; the next assessment shows them."
+	case "cancelled":
+		return "The work order is cancelled."
 	}
 	return ""
 }

@@ -5,7 +5,8 @@
 //
 // People sign in with an API token; the session is a signed cookie (see
 // session.go). A viewer sees; a planner or an admin may also acknowledge
-// and suppress findings. Every store call runs under the token's
+// and suppress findings and approve, schedule, complete and cancel work
+// orders. Every store call runs under the token's
 // principal (store.WithPrincipal), so a token limited to some sites sees
 // only those sites on every page.
 //
@@ -56,8 +57,9 @@ type Handler struct {
 	pages map[string]*template.Template
 	mux   *http.ServeMux
 	// handler is mux behind the cross-origin check and security headers.
-	handler http.Handler
-	cssPath string
+	handler      http.Handler
+	cssPath      string
+	printCSSPath string
 }
 
 // MinSessionKey is the shortest session key New accepts.
@@ -108,6 +110,9 @@ func New(st *store.Store, cfg Config) (*Handler, error) {
 	if h.cssPath, err = assetPath("style.css"); err != nil {
 		return nil, err
 	}
+	if h.printCSSPath, err = assetPath("print.css"); err != nil {
+		return nil, err
+	}
 	h.routes()
 	cop := http.NewCrossOriginProtection()
 	cop.SetDenyHandler(http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
@@ -120,9 +125,8 @@ func New(st *store.Store, cfg Config) (*Handler, error) {
 // ServeHTTP serves a page.
 func (h *Handler) ServeHTTP(w http.ResponseWriter, r *http.Request) { h.handler.ServeHTTP(w, r) }
 
-// navItem is one entry of the main navigation. Pages that come later
-// (forecast, reliability, work orders) add an entry here and a route in
-// routes; the layout draws whatever the list holds.
+// navItem is one entry of the main navigation. A new page adds an entry
+// here and a route in routes; the layout draws whatever the list holds.
 type navItem struct {
 	Key, Label, Path string
 }
@@ -133,6 +137,9 @@ func navigation() []navItem {
 		{Key: "fleet", Label: "Fleet", Path: "/fleet"},
 		{Key: "sites", Label: "Sites", Path: "/sites"},
 		{Key: "findings", Label: "Findings", Path: "/findings"},
+		{Key: "workorders", Label: "Work orders", Path: "/work-orders"},
+		{Key: "forecast", Label: "Forecast", Path: "/forecast"},
+		{Key: "reliability", Label: "Reliability", Path: "/reliability"},
 		{Key: "settings", Label: "Settings", Path: "/settings"},
 	}
 }
@@ -156,6 +163,15 @@ func (h *Handler) routes() {
 	m.HandleFunc("GET /findings/{id}", h.page(h.finding))
 	m.HandleFunc("POST /findings/{id}/acknowledge", h.action(true, h.acknowledge))
 	m.HandleFunc("POST /findings/{id}/suppress", h.action(true, h.suppress))
+	m.HandleFunc("GET /work-orders", h.page(h.workOrders))
+	m.HandleFunc("GET /work-orders/{id}", h.page(h.workOrder))
+	m.HandleFunc("GET /work-orders/{id}/print", h.page(h.printWorkOrder))
+	m.HandleFunc("POST /work-orders/{id}/approve", h.action(true, h.approveOrder))
+	m.HandleFunc("POST /work-orders/{id}/schedule", h.action(true, h.scheduleOrder))
+	m.HandleFunc("POST /work-orders/{id}/complete", h.action(true, h.completeOrder))
+	m.HandleFunc("POST /work-orders/{id}/cancel", h.action(true, h.cancelOrder))
+	m.HandleFunc("GET /forecast", h.page(h.forecast))
+	m.HandleFunc("GET /reliability", h.page(h.reliability))
 	m.HandleFunc("GET /settings", h.page(h.settings))
 	m.HandleFunc("POST /settings", h.action(false, h.saveSettings))
 	m.HandleFunc("/", func(w http.ResponseWriter, r *http.Request) {
@@ -274,7 +290,7 @@ func (h *Handler) action(planner bool, fn func(http.ResponseWriter, *http.Reques
 			return
 		}
 		if planner && !v.CanAct {
-			h.errorPage(w, r2, http.StatusForbidden, "Your token has the "+string(v.Token.Role)+" role; acting on findings needs the planner role.")
+			h.errorPage(w, r2, http.StatusForbidden, "Your token has the "+string(v.Token.Role)+" role; acting on findings and work orders needs the planner role.")
 			return
 		}
 		fn(w, r2)

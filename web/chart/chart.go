@@ -1,6 +1,7 @@
-// Package chart lays out small time-series charts for server-rendered SVG:
+// Package chart lays out small charts for server-rendered SVG: time series
+// (Lay), stacked bars (Bars) and Weibull probability plots (Probability):
 // scales, tick marks and path geometry. It draws nothing itself; the page
-// templates turn a Layout into SVG elements, so escaping stays with
+// templates turn a layout into SVG elements, so escaping stays with
 // html/template.
 package chart
 
