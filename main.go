@@ -30,6 +30,7 @@ import (
 	"kelvard/jobs/progress"
 	"kelvard/store"
 	"kelvard/store/csvio"
+	splan "kelvard/store/plan"
 	"kelvard/web"
 )
 
@@ -624,8 +625,8 @@ func builtinJobs(st *store.Store, log *slog.Logger, o jobOptions) []jobs.Job {
 // cmdPlan wires `kelvard plan` to the planning package.
 func cmdPlan(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
 	fs, c := newFlags("plan", getenv, stderr)
-	opts := plan.AddFlags(fs)
-	view, args := plan.SplitView(args)
+	opts := splan.AddFlags(fs)
+	view, args := splan.SplitView(args)
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -641,7 +642,7 @@ func cmdPlan(ctx context.Context, args []string, getenv func(string) string, std
 		return err
 	}
 	defer st.Close()
-	return plan.Command(ctx, st, view, opts, stdout)
+	return splan.Command(ctx, st, view, opts, stdout)
 }
 
 // jobFlags are serve's scheduler settings.

@@ -13,8 +13,8 @@ import (
 	"github.com/gin-gonic/gin"
 
 	"kelvard/health"
-	"kelvard/jobs/plan"
 	"kelvard/store"
+	"kelvard/store/plan"
 )
 
 // Media types of the planning exports.

@@ -125,9 +125,11 @@ func loadLives(ctx context.Context, db *gorm.DB, dialect Dialect, into map[int64
 		// cut out by the database in one pass over the report.
 		Parts []byte
 	}
-	parts := "jsonb_build_array(report->'capacitor', report->'fan') AS parts"
+	// The report is JSON kept as bytes (see Assessment.Report), so it is
+	// read as text before the parts are cut out.
+	parts := "(SELECT jsonb_build_array(j->'capacitor', j->'fan') FROM (SELECT convert_from(report, 'UTF8')::jsonb AS j) r) AS parts"
 	if dialect == SQLite {
-		parts = "json_extract(report, '$.capacitor', '$.fan') AS parts"
+		parts = "json_extract(CAST(report AS TEXT), '$.capacitor', '$.fan') AS parts"
 	}
 	var batch []row
 	var decodeErr error

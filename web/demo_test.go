@@ -14,9 +14,9 @@ import (
 	"github.com/PuerkitoBio/goquery"
 
 	"kelvard/jobs"
-	"kelvard/jobs/plan"
 	"kelvard/store"
 	"kelvard/store/demo"
+	"kelvard/store/plan"
 	"kelvard/store/storetest"
 )
 

@@ -10,8 +10,8 @@ import (
 	"time"
 
 	"kelvard/health"
-	"kelvard/jobs/plan"
 	"kelvard/store"
+	"kelvard/store/plan"
 	"kelvard/web/chart"
 )
 

@@ -14,8 +14,8 @@ import (
 	"github.com/PuerkitoBio/goquery"
 
 	"kelvard/health"
-	"kelvard/jobs/plan"
 	"kelvard/store"
+	"kelvard/store/plan"
 )
 
 // openOrders lists the open work orders with their lines.

@@ -8,7 +8,7 @@ import (
 	"strings"
 
 	"kelvard/health"
-	"kelvard/jobs/plan"
+	"kelvard/store/plan"
 	"kelvard/web/chart"
 )
 

@@ -1,3 +1,6 @@
+// Package plan runs planning on the scheduler: the nightly pass that
+// refreshes the proposed work orders (store/plan holds the planning itself,
+// shared by the API, the pages and the command line).
 package plan
 
 import (
@@ -8,10 +11,8 @@ import (
 
 	"kelvard/jobs"
 	"kelvard/store"
+	splan "kelvard/store/plan"
 )
-
-// Actor is the name planning writes to the audit log and to proposed_by.
-const Actor = "planning"
 
 // Job is the nightly planning run (jobs.Plan): it refreshes the proposed
 // work orders from the findings, the replacement forecast and the
@@ -19,7 +20,7 @@ const Actor = "planning"
 // cleared causes on approved orders.
 type Job struct {
 	Store  *store.Store
-	Config Config
+	Config splan.Config
 	Log    *slog.Logger
 }
 
@@ -32,7 +33,7 @@ func (j Job) Run(ctx context.Context, _ time.Time, progress func(done, total int
 		progress = func(int, int) {}
 	}
 	progress(0, 2)
-	res, drives, err := Refresh(ctx, j.Store, j.Config)
+	res, drives, err := splan.Refresh(ctx, j.Store, j.Config)
 	if err != nil {
 		return jobs.Stats{}, err
 	}
@@ -44,28 +45,4 @@ func (j Job) Run(ctx context.Context, _ time.Time, progress func(done, total int
 			slog.Int("orders_created", res.OrdersCreated))
 	}
 	return jobs.Stats{Drives: int64(drives), Note: note}, nil
-}
-
-// Refresh runs one planning pass over the whole fleet at the store's clock
-// and returns what changed and how many drives it looked at. It always
-// acts for every site, as Actor: a pass limited to some sites would take
-// the others' causes for cleared.
-func Refresh(ctx context.Context, st *store.Store, cfg Config) (store.SyncResult, int, error) {
-	cfg = cfg.Defaults()
-	if err := cfg.Validate(); err != nil {
-		return store.SyncResult{}, 0, err
-	}
-	ctx = store.WithPrincipal(ctx, store.Principal{Actor: Actor})
-	d, err := st.LoadPlanningData(ctx)
-	if err != nil {
-		return store.SyncResult{}, 0, err
-	}
-	f := BuildForecast(d, cfg, d.At)
-	proposals := BuildProposals(d, f, cfg, d.At)
-	res, err := st.SyncProposals(ctx, proposals, store.SyncOptions{At: d.At, RedoAfter: cfg.RedoAfter,
-		Kinds: []string{store.CauseFinding, store.CauseForecast, store.CauseRecurring}})
-	if err != nil {
-		return res, len(d.Drives), err
-	}
-	return res, len(d.Drives), nil
 }
