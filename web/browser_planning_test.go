@@ -67,12 +67,12 @@ func planningBrowser(t *testing.T, f *fleet, b *browsertest.Browser, orderHref s
 	}
 	path := fmt.Sprintf("/work-orders/%d", o.ID)
 	b.Open(path)
-	b.Do("approve", chromedp.Click(chromedp.CSS(`form[action$="/approve"] button`)), chromedp.WaitVisible(chromedp.CSS("p.notice")))
+	b.Do("approve", chromedp.Click(chromedp.CSS(`form[action$="/approve"] button`)), browsertest.Redirected("approved"))
 	if notice := b.Text("p.notice"); !strings.Contains(notice, "approved") {
 		t.Errorf("notice after approving: %q", notice)
 	}
 	b.Do("schedule", chromedp.Evaluate[chromedp.Void](`document.querySelector("#schedule-on").value = "2026-12-10"`),
-		chromedp.Click(chromedp.CSS(`form[action$="/schedule"] button`)), chromedp.WaitVisible(chromedp.CSS("p.notice")))
+		chromedp.Click(chromedp.CSS(`form[action$="/schedule"] button`)), browsertest.Redirected("scheduled"))
 	if got, _ := f.st.GetWorkOrder(ctx, o.ID); got.Status != store.OrderScheduled || got.ScheduledFor == nil ||
 		got.ScheduledFor.Format(time.DateOnly) != "2026-12-10" {
 		t.Fatalf("after scheduling in the browser the order is %s for %v", got.Status, got.ScheduledFor)
@@ -85,7 +85,7 @@ func planningBrowser(t *testing.T, f *fleet, b *browsertest.Browser, orderHref s
 	b.Check("27-work-order-completion")
 	b.Do("record as done", chromedp.SendKeys(chromedp.CSS("#cap-"+key), "3650"), chromedp.SendKeys(chromedp.CSS("#esr-"+key), "41"),
 		chromedp.SendKeys(chromedp.CSS("#notes-"+key), "two cans bulging; bank replaced"),
-		chromedp.Click(chromedp.CSS(`form.complete button[type="submit"]`)), chromedp.WaitVisible(chromedp.CSS("p.notice")))
+		chromedp.Click(chromedp.CSS(`form.complete button[type="submit"]`)), browsertest.Redirected("completed"))
 	if notice := b.Text("p.notice"); !strings.Contains(notice, "recorded as done") {
 		t.Fatalf("notice after completing: %q", notice)
 	}

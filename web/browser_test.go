@@ -81,7 +81,7 @@ func browserTests(t *testing.T, f *fleet) {
 	// Acknowledging a finding from its page.
 	b.Open(findingHref)
 	b.Do("acknowledge", chromedp.SendKeys(chromedp.CSS(`form[action$="/acknowledge"] input[name="reason"]`), "seen on the walk-round"),
-		chromedp.Click(chromedp.CSS(`form[action$="/acknowledge"] button`)), chromedp.WaitVisible(chromedp.CSS("p.notice")))
+		chromedp.Click(chromedp.CSS(`form[action$="/acknowledge"] button`)), browsertest.Redirected("acknowledged"))
 	if notice := b.Text("p.notice"); !strings.Contains(notice, "acknowledged") {
 		t.Errorf("notice after acknowledging: %q", notice)
 	}
@@ -96,7 +96,7 @@ func browserTests(t *testing.T, f *fleet) {
 	// Imperial units, chosen on the settings page.
 	b.Open("/settings")
 	b.Do("imperial", chromedp.Click(chromedp.CSS("#units-imperial")), chromedp.Click(chromedp.CSS(`form.settings button`)),
-		chromedp.WaitVisible(chromedp.CSS("p.notice")))
+		browsertest.Redirected("units"))
 	b.Open(driveHref)
 	if body := b.Text("main"); !strings.Contains(body, "°F") || !strings.Contains(body, " hp") {
 		t.Error("imperial units chosen but the drive page shows no °F or hp")

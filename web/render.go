@@ -52,7 +52,9 @@ type layout struct {
 	// Path is the page's own address (for "back" after a form).
 	Path   string
 	Notice string
-	Body   any
+	// Done names the change the notice confirms (the redirect's done=).
+	Done string
+	Body any
 }
 
 // render writes a page with its status. The page is rendered into memory
@@ -73,6 +75,9 @@ func (h *Handler) renderFrame(w http.ResponseWriter, r *http.Request, status int
 	v := viewerFrom(r.Context())
 	data := layout{Title: title, Nav: nav, NavAll: navigation(), Who: v, CSS: css, Path: r.URL.RequestURI(), Body: body,
 		Notice: noticeText(r.URL.Query().Get("done"))}
+	if data.Notice != "" {
+		data.Done = r.URL.Query().Get("done")
+	}
 	if v != nil {
 		data.U = v.Units
 	} else if uc, err := r.Cookie(unitsCookie); err == nil {

@@ -221,6 +221,14 @@ func (b *Browser) Open(path string) {
 	b.Do("open "+path, chromedp.Navigate(b.Base+path), chromedp.WaitReady(chromedp.CSS("main")))
 }
 
+// Redirected waits until a form's redirect has landed on the page that
+// confirms it: the notice for done=what. Waiting for any notice would pass
+// at once on a page that still showed the previous one, before the new
+// request had finished.
+func Redirected(what string) chromedp.Action[chromedp.Void] {
+	return chromedp.WaitVisible(chromedp.CSS(fmt.Sprintf(`p.notice[data-done=%q]`, what)))
+}
+
 // Location is the path (and query) the browser is at.
 func (b *Browser) Location() string {
 	b.T.Helper()
