@@ -7,14 +7,18 @@ import (
 	"testing"
 	"time"
 
+	"kelvard/health"
 	"kelvard/store"
+	"kelvard/store/storetest"
 )
 
 // TestRetentionRollUp holds the roll-up to its promises: nothing is rolled
 // up before it is assessed; rolled-up months lose their raw rows (the whole
 // partition on PostgreSQL); and a full recompute over the roll-ups agrees
 // with the raw result within 0.1 % (the accuracy health.BuildHourAggregates
-// documents for 1 °C time-at-temperature bins).
+// documents for 1 °C time-at-temperature bins). A drive retired before it
+// was ever assessed is never assessed again, so its readings must not hold
+// its months back.
 func TestRetentionRollUp(t *testing.T) {
 	t.Parallel()
 	forEachStore(t, func(t *testing.T, d store.Dialect) {
@@ -38,6 +42,20 @@ func TestRetentionRollUp(t *testing.T) {
 			if _, err := r.st.Ingest(ctx, rows[i:min(i+5000, len(rows))], store.IngestOptions{}); err != nil {
 				t.Fatal(err)
 			}
+		}
+		// A second drive logs for three weeks of January and is then
+		// retired before any assessment.
+		gone := storetest.Build(t, r.st, "retired")
+		var goneRows []store.Reading
+		for k := 1; k <= 21*24; k++ {
+			goneRows = append(goneRows, store.Reading{PositionID: gone.Position.ID, At: t0.Add(time.Duration(k) * time.Hour),
+				InternalAirC: f64(38), CurrentA: f64(20)})
+		}
+		if _, err := r.st.Ingest(ctx, goneRows, store.IngestOptions{}); err != nil {
+			t.Fatal(err)
+		}
+		if _, err := r.st.MoveDrive(ctx, gone.Drive.ID, store.Move{At: t0.Add(22 * 24 * time.Hour), Status: health.StatusRetired}); err != nil {
+			t.Fatal(err)
 		}
 		job := NewRetentionJob(r.st, RetentionConfig{RawRetention: 30 * 24 * time.Hour, Now: func() time.Time { return r.now }})
 

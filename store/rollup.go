@@ -64,12 +64,17 @@ func (s *Store) RawMonths(ctx context.Context, cutoff time.Time) ([]RollupMonth,
 // MonthAssessed reports whether every reading of the month has been taken
 // in by the assessment (each at or before its drive's watermark, with no
 // recompute pending from before the month's end): nothing is rolled up
-// before it has been assessed.
+// before it has been assessed. Readings of retired drives do not count.
 func (s *Store) MonthAssessed(ctx context.Context, m RollupMonth) (bool, error) {
 	var n int64
-	err := s.db.WithContext(ctx).Raw(`SELECT count(*) FROM readings r LEFT JOIN drive_watermarks w ON w.drive_id = r.drive_id
-		WHERE r.at >= ? AND r.at < ? AND (w.assessed_to IS NULL OR r.at > w.assessed_to OR (w.recompute_from IS NOT NULL AND w.recompute_from < ?))`,
-		s.timeArg(m.Start), s.timeArg(m.End), s.timeArg(m.End)).Scan(&n).Error
+	// A retired drive is never assessed again (its findings resolve and its
+	// assessment is dropped), so its readings wait for nothing.
+	err := s.db.WithContext(ctx).Raw(`SELECT count(*) FROM readings r
+		JOIN drives d ON d.id = r.drive_id
+		LEFT JOIN drive_watermarks w ON w.drive_id = r.drive_id
+		WHERE r.at >= ? AND r.at < ? AND d.status <> ?
+		  AND (w.assessed_to IS NULL OR r.at > w.assessed_to OR (w.recompute_from IS NOT NULL AND w.recompute_from < ?))`,
+		s.timeArg(m.Start), s.timeArg(m.End), health.StatusRetired, s.timeArg(m.End)).Scan(&n).Error
 	if err != nil {
 		return false, fmt.Errorf("check month %s assessed: %w", m.Start.Format("2006-01"), translate(err))
 	}
