@@ -51,6 +51,7 @@ Usage: kelvard <command> [flags]
 Commands:
   serve     run the HTTP server (API, pages, metrics, scheduled jobs)
   migrate   apply database migrations and exit
+  backup    copy the embedded SQLite store to a new file while it runs: backup FILE
   import    import a register CSV file: import KIND FILE [--partial]
   token     make, list and revoke API tokens
   assess    run one assessment now (--full recomputes every drive)
@@ -77,6 +78,8 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 		err = cmdServe(ctx, rest, getenv, stdout, stderr, builtinJobs)
 	case "migrate":
 		err = cmdMigrate(ctx, rest, getenv, stdout, stderr)
+	case "backup":
+		err = cmdBackup(ctx, rest, getenv, stdout, stderr)
 	case "token":
 		err = cmdToken(ctx, rest, getenv, stdout, stderr)
 	case "assess":
@@ -389,6 +392,36 @@ func cmdMigrate(ctx context.Context, args []string, getenv func(string) string, 
 	}
 	defer st.Close()
 	fmt.Fprintf(stdout, "migrations applied (%s store)\n", st.Dialect())
+	return nil
+}
+
+// cmdBackup copies the embedded store to a new file (store.BackupTo); a
+// PostgreSQL store is backed up with pg_dump instead.
+func cmdBackup(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+	fs, c := newFlags("backup", getenv, stderr)
+	var file string
+	if len(args) > 0 && !strings.HasPrefix(args[0], "-") {
+		file, args = args[0], args[1:]
+	}
+	if err := parse(fs, args); err != nil {
+		return err
+	}
+	if file == "" {
+		return usageError{errors.New("usage: kelvard backup FILE [flags] (the embedded SQLite store; FILE must not exist)")}
+	}
+	log, err := c.logger(stderr)
+	if err != nil {
+		return err
+	}
+	st, err := c.open(ctx, log)
+	if err != nil {
+		return err
+	}
+	defer st.Close()
+	if err := st.BackupTo(ctx, file); err != nil {
+		return err
+	}
+	fmt.Fprintf(stdout, "backup written to %s\n", file)
 	return nil
 }
 
