@@ -5,7 +5,6 @@ import (
 	"database/sql"
 	"fmt"
 	"net/url"
-	"os"
 	"os/exec"
 	"path/filepath"
 	"testing"
@@ -75,7 +74,7 @@ func TestPgDumpRestoreRoundTrip(t *testing.T) {
 	plain := *u
 	plain.RawQuery = "sslmode=disable"
 	dump := filepath.Join(t.TempDir(), "kelvard.dump")
-	runTool(t, "pg_dump", "--format=custom", "--schema="+schema, "--file="+dump, "--dbname="+plain.String())
+	runTool(t, ".", "pg_dump", "--format=custom", "--schema="+schema, "--file="+dump, "--dbname="+plain.String())
 
 	admin, err := sql.Open("pgx", plain.String())
 	if err != nil {
@@ -93,7 +92,7 @@ func TestPgDumpRestoreRoundTrip(t *testing.T) {
 	})
 	target := plain
 	target.Path = "/" + dbName
-	runTool(t, "pg_restore", "--no-owner", "--exit-on-error", "--dbname="+target.String(), dump)
+	runTool(t, ".", "pg_restore", "--no-owner", "--exit-on-error", "--dbname="+target.String(), dump)
 
 	restoredURL := target
 	q := restoredURL.Query()
@@ -139,16 +138,6 @@ func TestPgDumpRestoreRoundTrip(t *testing.T) {
 		t.Errorf("ingest into the restored copy: %+v %v", res, err)
 	}
 	t.Logf("%d tables, %d readings restored equal", len(tables), len(rows))
-}
-
-// runTool runs a PostgreSQL client tool and fails the test with its output.
-func runTool(t *testing.T, name string, args ...string) {
-	t.Helper()
-	cmd := exec.Command(name, args...)
-	cmd.Env = append(os.Environ(), "PGCONNECT_TIMEOUT=10")
-	if out, err := cmd.CombinedOutput(); err != nil {
-		t.Fatalf("%s: %v\n%s", name, err, out)
-	}
 }
 
 // tablesOf lists the schema's tables, a partitioned table once (its
