@@ -5,7 +5,7 @@
 #
 #   docker build --build-arg VERSION=$(git describe --always) -t kelvard .
 #
-# deploy/deploy_test.go runs this file's `go build` line and checks that it
+# deploy/dockerfile_test.go runs this file's `go build` line and checks that it
 # makes a static binary, and checks the rules below (stages, user, port,
 # entrypoint).
 
