@@ -153,7 +153,8 @@ func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int
 		pc := dc.(*stdlib.Conn).Conn()
 		rows, err := pc.Query(ctx, "SELECT "+readingColumns+
 			" FROM unnest($1::bigint[], $2::timestamptz[], $3::timestamptz[]) AS w(drive_id, after_at, before_at)"+
-			" JOIN readings r ON r.drive_id = w.drive_id AND r.at > w.after_at AND r.at < w.before_at ORDER BY r.drive_id, r.at",
+			" CROSS JOIN LATERAL (SELECT * FROM readings x WHERE x.drive_id = w.drive_id AND x.at > w.after_at AND x.at < w.before_at OFFSET 0) r"+
+			" ORDER BY r.drive_id, r.at",
 			ids, afters, befores)
 		if err != nil {
 			return fmt.Errorf("scan readings: %w", translate(err))

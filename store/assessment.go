@@ -130,6 +130,12 @@ func (c *AssessContext) Current() (PositionContext, bool) {
 // watermark, drives marked for recompute, drives never assessed, and drives
 // whose last assessment is older than staleBefore (so time-driven rules,
 // such as a silent position or a due energising, are seen).
+//
+// The test for new readings is an index range on (drive_id, at) past the
+// watermark (beforeAnyReading stands in for a drive never assessed), so
+// it costs a probe per drive and partition, not a pass over the drive's
+// history: an OR of "no watermark" inside the subquery made PostgreSQL
+// read every reading of every drive as a filter.
 func (s *Store) AssessmentCandidates(ctx context.Context, full bool, staleBefore time.Time) ([]int64, error) {
 	db := s.db.WithContext(ctx)
 	var ids []int64
@@ -143,16 +149,19 @@ func (s *Store) AssessmentCandidates(ctx context.Context, full bool, staleBefore
 			LEFT JOIN drive_watermarks w ON w.drive_id = d.id
 			LEFT JOIN assessments a ON a.drive_id = d.id
 			WHERE (d.status <> ? AND (a.drive_id IS NULL OR a.at < ? OR w.recompute_from IS NOT NULL
-			       OR EXISTS (SELECT 1 FROM readings r WHERE r.drive_id = d.id AND (w.assessed_to IS NULL OR r.at > w.assessed_to))))
+			       OR EXISTS (SELECT 1 FROM readings r WHERE r.drive_id = d.id AND r.at > COALESCE(w.assessed_to, ?))))
 			   OR (d.status = ? AND EXISTS (SELECT 1 FROM findings f WHERE f.drive_id = d.id AND f.status <> ?))
 			ORDER BY d.id`,
-			health.StatusRetired, staleBefore.UTC(), health.StatusRetired, FindingResolved).Scan(&ids).Error
+			health.StatusRetired, staleBefore.UTC(), s.timeArg(beforeAnyReading), health.StatusRetired, FindingResolved).Scan(&ids).Error
 	}
 	if err != nil {
 		return nil, fmt.Errorf("find drives to assess: %w", translate(err))
 	}
 	return ids, nil
 }
+
+// beforeAnyReading lies before every reading time kelvard accepts.
+var beforeAnyReading = time.Date(1, 1, 1, 0, 0, 0, 0, time.UTC)
 
 // LoadAssessContexts loads the contexts of a batch of drives with a fixed
 // number of queries, whatever the batch size.
