@@ -15,9 +15,9 @@ import (
 )
 
 // TestLoadBenchmark builds kelvard, runs a short load benchmark against
-// it on a small registered fleet and checks the report: every endpoint
-// was asked, nothing failed, every post stored its rows, and the figures
-// hang together.
+// it on the demo fleet and on a small registered fleet, and checks the
+// reports: every endpoint was asked, nothing failed, every post stored its
+// rows, and the figures hang together.
 func TestLoadBenchmark(t *testing.T) {
 	storetest.URL(t, store.Postgres) // skips, or fails under CI, without PostgreSQL
 	goTool, err := exec.LookPath("go")
@@ -29,21 +29,43 @@ func TestLoadBenchmark(t *testing.T) {
 	if out, err := build.CombinedOutput(); err != nil {
 		t.Fatalf("build kelvard: %v\n%s", err, out)
 	}
-	var progress bytes.Buffer
-	rep, err := bench.Load(context.Background(), bench.LoadConfig{
-		DatabaseURL: storetest.PostgresURL(), Rate: 50, Duration: 2 * time.Second, Warmup: time.Second,
-		Positions: 12, Executable: bin, Progress: &progress,
-	})
-	if err != nil {
-		t.Fatalf("bench: %v\n%s", err, progress.String())
+	for _, c := range []struct {
+		name      string
+		positions int
+		fleet     func(r bench.LoadReport) bool
+	}{
+		// The command's default: the demo fleet, with findings to list.
+		{"demo fleet", 0, func(r bench.LoadReport) bool {
+			return r.Sites == 5 && r.Positions == 80 && r.Drives > 80 && r.Readings > 600000 && r.Open > 0
+		}},
+		{"registered fleet", 12, func(r bench.LoadReport) bool {
+			return r.Sites == 1 && r.Positions == 12 && r.Drives == 12 && r.Readings == 12*28*24
+		}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			var progress bytes.Buffer
+			rep, err := bench.Load(context.Background(), bench.LoadConfig{
+				DatabaseURL: storetest.PostgresURL(), Rate: 50, Duration: 2 * time.Second, Warmup: time.Second,
+				Positions: c.positions, Executable: bin, Progress: &progress,
+			})
+			if err != nil {
+				t.Fatalf("bench: %v\n%s", err, progress.String())
+			}
+			if !c.fleet(rep) {
+				t.Errorf("fleet %s: %d sites, %d positions, %d drives, %d readings, %d open findings",
+					rep.Fleet, rep.Sites, rep.Positions, rep.Drives, rep.Readings, rep.Open)
+			}
+			checkLoadReport(t, rep)
+		})
 	}
+}
+
+// checkLoadReport checks a report of 2 s at 50 requests/s.
+func checkLoadReport(t *testing.T, rep bench.LoadReport) {
+	t.Helper()
 	var out bytes.Buffer
 	rep.Print(&out)
 	t.Logf("\n%s", out.String())
-
-	if rep.Positions != 12 || rep.Drives != 12 || rep.Sites != 1 || rep.Readings != 12*28*24 {
-		t.Errorf("fleet: %d sites, %d positions, %d drives, %d readings", rep.Sites, rep.Positions, rep.Drives, rep.Readings)
-	}
 	if len(rep.Endpoints) != 5 {
 		t.Fatalf("%d endpoints in the report, want 5", len(rep.Endpoints))
 	}
