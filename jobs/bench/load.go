@@ -149,6 +149,15 @@ type LoadReport struct {
 	Seed                                     uint64
 	Endpoints                                []EndpointStats
 	Reads, Overall                           EndpointStats
+	// ReadsOverTarget counts reads slower than TargetReadP99.
+	ReadsOverTarget int
+	// Slice is the width of the slices of ReadP99BySlice: the attack cut
+	// in six, or in 10-second slices when longer than a minute.
+	Slice time.Duration
+	// ReadP99BySlice is the reads' 99th percentile in each slice of the
+	// attack, by when the requests started: a tail spread evenly over the
+	// run, or bunched in a few slices (often other work on the machine).
+	ReadP99BySlice []time.Duration
 	// AchievedRate is requests sent per second over the attack.
 	AchievedRate float64
 	// Inserted counts readings the counted posts stored.
@@ -198,10 +207,18 @@ func (r LoadReport) Print(w io.Writer) {
 	row(r.Reads)
 	row(r.Overall)
 	fmt.Fprintf(w, "\nachieved rate %.1f requests/s (asked %d); %d readings inserted by the counted posts\n", r.AchievedRate, r.Rate, r.Inserted)
+	fmt.Fprintf(w, "reads slower than %s: %d of %d (%.2f %%); reads p99 by %s slice (ms):",
+		TargetReadP99, r.ReadsOverTarget, r.Reads.Requests, 100*float64(r.ReadsOverTarget)/float64(max(r.Reads.Requests, 1)), r.Slice.Round(time.Millisecond))
+	for _, p := range r.ReadP99BySlice {
+		fmt.Fprintf(w, " %s", ms(p))
+	}
+	fmt.Fprintln(w)
 	cpu := r.CPU
-	fmt.Fprintf(w, "CPU during the attack: client %.1f s, server %.1f s, PostgreSQL backends %.1f s, total %.1f s of %.0f s on %d CPUs; server peak RSS %.0f MB\n",
-		cpu.Client.Seconds(), cpu.Server.Seconds(), cpu.Database.Seconds(), cpu.Total().Seconds(),
-		r.Duration.Seconds()*float64(m.CPUs), m.CPUs, float64(r.PeakRSS)/(1<<20))
+	perReq := func(d time.Duration) float64 { return d.Seconds() * 1000 / float64(max(r.Overall.Requests, 1)) }
+	fmt.Fprintf(w, "CPU during the attack: client %.1f s, server %.1f s, PostgreSQL backends %.1f s, total %.1f s of %.0f s on %d CPUs\n",
+		cpu.Client.Seconds(), cpu.Server.Seconds(), cpu.Database.Seconds(), cpu.Total().Seconds(), r.Duration.Seconds()*float64(m.CPUs), m.CPUs)
+	fmt.Fprintf(w, "CPU per request: client %.2f ms, server %.2f ms, PostgreSQL %.2f ms; server peak RSS %.0f MB\n",
+		perReq(cpu.Client), perReq(cpu.Server), perReq(cpu.Database), float64(r.PeakRSS)/(1<<20))
 	for _, e := range r.Overall.ErrorSamples {
 		fmt.Fprintf(w, "error: %s\n", e)
 	}
@@ -348,7 +365,7 @@ func Load(ctx context.Context, cfg LoadConfig) (LoadReport, error) {
 		a := vegeta.NewAttacker(vegeta.Client(client), vegeta.Workers(uint64(cfg.Workers)), vegeta.MaxWorkers(uint64(cfg.MaxWorkers)))
 		stop := context.AfterFunc(ctx, func() { a.Stop() })
 		defer stop()
-		res := newAttackResults()
+		res := newAttackResults(time.Now(), du)
 		for r := range a.Attack(gen.target, vegeta.Rate{Freq: cfg.Rate, Per: time.Second}, du, name) {
 			res.add(r)
 		}
@@ -486,8 +503,22 @@ func vacuumSchema(ctx context.Context, db *sql.DB, schema string) error {
 	return nil
 }
 
+// loadSlices cuts an attack of du into the report's time slices: six, or
+// 10-second ones when it lasts longer than a minute.
+func loadSlices(du time.Duration) (n int, width time.Duration) {
+	if du > time.Minute {
+		return int((du + 10*time.Second - 1) / (10 * time.Second)), 10 * time.Second
+	}
+	return 6, max(du/6, time.Nanosecond)
+}
+
 // attackResults gathers one attack's results by endpoint.
 type attackResults struct {
+	start      time.Time
+	slice      time.Duration
+	readSlices []vegeta.LatencyMetrics
+	slowReads  int
+
 	byEndpoint     []vegeta.Metrics
 	errs           []int
 	reads, overall vegeta.Metrics
@@ -498,8 +529,10 @@ type attackResults struct {
 	endpointSample [][]string
 }
 
-func newAttackResults() *attackResults {
-	return &attackResults{byEndpoint: make([]vegeta.Metrics, len(loadMix)), errs: make([]int, len(loadMix)),
+func newAttackResults(start time.Time, du time.Duration) *attackResults {
+	n, slice := loadSlices(du)
+	return &attackResults{start: start, slice: slice, readSlices: make([]vegeta.LatencyMetrics, n),
+		byEndpoint: make([]vegeta.Metrics, len(loadMix)), errs: make([]int, len(loadMix)),
 		endpointSample: make([][]string, len(loadMix))}
 }
 
@@ -528,6 +561,12 @@ func (a *attackResults) add(r *vegeta.Result) {
 	a.overall.Add(r)
 	if k < 0 || loadMix[k].read {
 		a.reads.Add(r)
+		// The last requests may start a little after the attack's end.
+		i := min(max(0, int(r.Timestamp.Sub(a.start)/a.slice)), len(a.readSlices)-1)
+		a.readSlices[i].Add(r.Latency)
+		if r.Latency >= TargetReadP99 {
+			a.slowReads++
+		}
 	}
 	if r.Error == "" {
 		return
@@ -572,5 +611,9 @@ func (a *attackResults) fill(rep *LoadReport) {
 	rep.Reads = stats("reads (every GET)", readShare, &a.reads, a.readErrs, nil)
 	rep.Overall = stats("overall", 100, &a.overall, a.errors, a.samples)
 	rep.AchievedRate = a.overall.Rate
+	rep.ReadsOverTarget, rep.Slice = a.slowReads, a.slice
+	for _, l := range a.readSlices {
+		rep.ReadP99BySlice = append(rep.ReadP99BySlice, l.Quantile(0.99))
+	}
 	rep.Inserted = a.inserted
 }

@@ -100,6 +100,14 @@ func checkLoadReport(t *testing.T, rep bench.LoadReport) {
 	if rep.AchievedRate < 25 || rep.AchievedRate > 75 {
 		t.Errorf("achieved rate %.1f requests/s, asked 50", rep.AchievedRate)
 	}
+	if len(rep.ReadP99BySlice) != 6 || rep.Slice.Round(time.Millisecond) != 333*time.Millisecond || rep.ReadsOverTarget < 0 || rep.ReadsOverTarget > rep.Reads.Requests {
+		t.Errorf("slices of %v: %v; %d reads over the target", rep.Slice, rep.ReadP99BySlice, rep.ReadsOverTarget)
+	}
+	for _, p := range rep.ReadP99BySlice {
+		if p <= 0 || p > rep.Reads.Max {
+			t.Errorf("a slice's read p99 %v, the reads' max %v", p, rep.Reads.Max)
+		}
+	}
 	posts := rep.Endpoints[len(rep.Endpoints)-1]
 	if rep.Inserted != 100*posts.Requests {
 		t.Errorf("%d readings inserted by %d posts of 100 rows", rep.Inserted, posts.Requests)
