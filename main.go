@@ -55,7 +55,7 @@ Commands:
   import    import a register CSV file: import KIND FILE [--partial]
   token     make, list and revoke API tokens
   assess    run one assessment now (--full recomputes every drive)
-  bench     measure the server on this machine (bench ingest)
+  bench     measure the server on this machine (bench ingest, bench assess, bench load)
   plan      print the replacement forecast, fleet reliability with spares, and open
             work orders: plan [forecast|reliability|work-orders] --format table|csv|json
   version   print the version
@@ -825,7 +825,8 @@ func ingestLimitFlags(fs *flag.FlagSet, getenv func(string) string) (*ingestLimi
 }
 
 const benchUsage = "usage: kelvard bench ingest --database-url postgres://… [-n 1000000] [--positions 500] [--batch 10000] [--senders 3] [--rounds 1]\n" +
-	"       kelvard bench assess --database-url postgres://… [--drives 1000] [--readings 5000] [--scrape-drives 10000]"
+	"       kelvard bench assess --database-url postgres://… [--drives 1000] [--readings 5000] [--scrape-drives 10000]\n" +
+	"       kelvard bench load --database-url postgres://… [--rate 500] [--duration 60s] [--warmup 5s] [--workers 10] [--max-workers 256]"
 
 // cmdBench runs a benchmark; see package kelvard/jobs/bench.
 func cmdBench(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
@@ -846,6 +847,9 @@ func cmdBench(ctx context.Context, args []string, getenv func(string) string, st
 		rep.Print(stdout)
 		return nil
 	}
+	if len(args) > 0 && args[0] == "load" {
+		return cmdBenchLoad(ctx, args[1:], getenv, stdout, stderr)
+	}
 	if len(args) == 0 || args[0] != "ingest" {
 		return usageError{errors.New(benchUsage)}
 	}
@@ -864,6 +868,49 @@ func cmdBench(ctx context.Context, args []string, getenv func(string) string, st
 	}
 	cfg.DatabaseURL, cfg.Progress = c.databaseURL, stderr
 	rep, err := bench.Ingest(ctx, cfg)
+	if err != nil {
+		return err
+	}
+	rep.Print(stdout)
+	return nil
+}
+
+// cmdBenchLoad runs `kelvard bench load`: the demo fleet in a scratch
+// schema, a child server on the loopback interface and a fixed-rate
+// request mix against it.
+func cmdBenchLoad(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+	fs, c := newFlags("bench load", getenv, stderr)
+	var cfg bench.LoadConfig
+	fs.IntVar(&cfg.Rate, "rate", 500, fmt.Sprintf("requests per second, held fixed (at most %d)", bench.MaxLoadRate))
+	fs.DurationVar(&cfg.Duration, "duration", time.Minute, fmt.Sprintf("how long the counted attack lasts (at most %s)", bench.MaxLoadDuration))
+	fs.DurationVar(&cfg.Warmup, "warmup", 5*time.Second, "an attack at the same rate before the counted one, not counted (0: none)")
+	fs.IntVar(&cfg.Workers, "workers", 10, "request goroutines the attack starts with")
+	fs.IntVar(&cfg.MaxWorkers, "max-workers", 256, fmt.Sprintf("most request goroutines while all are busy (at most %d)", bench.MaxLoadWorkers))
+	fs.DurationVar(&cfg.Timeout, "timeout", 10*time.Second, "longest a request may take")
+	var seed uint
+	fs.UintVar(&seed, "seed", 1, "seed of the drives, filters and weeks the requests pick")
+	fs.IntVar(&cfg.Positions, "positions", 0, "a registered fleet of this many positions with four weeks of readings instead of the demo fleet (0: the demo fleet)")
+	if err := parse(fs, args); err != nil {
+		return err
+	}
+	switch {
+	case cfg.Rate < 1 || cfg.Rate > bench.MaxLoadRate:
+		return usageError{fmt.Errorf("--rate %d: want 1 to %d requests per second", cfg.Rate, bench.MaxLoadRate)}
+	case cfg.Duration < time.Second || cfg.Duration > bench.MaxLoadDuration:
+		return usageError{fmt.Errorf("--duration %s: want 1s to %s", cfg.Duration, bench.MaxLoadDuration)}
+	case cfg.Warmup < 0 || cfg.Warmup > time.Minute:
+		return usageError{fmt.Errorf("--warmup %s: want 0 to 1m", cfg.Warmup)}
+	case cfg.Workers < 1 || cfg.MaxWorkers < cfg.Workers || cfg.MaxWorkers > bench.MaxLoadWorkers:
+		return usageError{fmt.Errorf("--workers %d, --max-workers %d: want 1 ≤ workers ≤ max workers ≤ %d", cfg.Workers, cfg.MaxWorkers, bench.MaxLoadWorkers)}
+	case cfg.Timeout <= 0 || cfg.Positions < 0 || seed == 0:
+		return usageError{errors.New("--timeout and --seed must be positive, --positions 0 or more")}
+	}
+	if cfg.Warmup == 0 {
+		cfg.Warmup = -1 // none, rather than the default
+	}
+	cfg.Seed = uint64(seed)
+	cfg.DatabaseURL, cfg.Progress = c.databaseURL, stderr
+	rep, err := bench.Load(ctx, cfg)
 	if err != nil {
 		return err
 	}

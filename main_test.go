@@ -588,7 +588,11 @@ func TestBenchAndLimitArguments(t *testing.T) {
 		says string
 	}{
 		{[]string{"bench"}, nil, 2, "usage: kelvard bench ingest"},
-		{[]string{"bench", "load"}, nil, 2, "usage: kelvard bench ingest"},
+		{[]string{"bench", "frob"}, nil, 2, "usage: kelvard bench ingest"},
+		{[]string{"bench", "load"}, nil, 1, "needs a PostgreSQL database"},
+		{[]string{"bench", "load", "--rate", "5001"}, nil, 2, "--rate 5001: want 1 to 5000"},
+		{[]string{"bench", "load", "--duration", "11m"}, nil, 2, "--duration 11m0s: want 1s to 10m0s"},
+		{[]string{"bench", "load", "--workers", "20", "--max-workers", "10"}, nil, 2, "want 1 ≤ workers ≤ max workers"},
 		{[]string{"bench", "assess"}, nil, 1, "needs a PostgreSQL database"},
 		{[]string{"bench", "ingest", "-n", "0"}, nil, 2, "must be positive"},
 		{[]string{"bench", "ingest", "--database-url", "sqlite:x.db"}, nil, 1, "needs a PostgreSQL database"},

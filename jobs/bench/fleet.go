@@ -165,7 +165,8 @@ func ptr(v float64) *float64 { return &v }
 
 func round2(v float64) float64 { return math.Round(v*100) / 100 }
 
-// jsonBody encodes readings as a posted JSON array, one object a line.
+// jsonBody encodes readings as a posted JSON array, one object a line;
+// a row's site is written only when it names one.
 func jsonBody(rows []store.Reading) []byte {
 	out := make([]byte, 0, len(rows)*360)
 	out = append(out, '[')
@@ -174,7 +175,13 @@ func jsonBody(rows []store.Reading) []byte {
 		if i > 0 {
 			out = append(out, ",\n"...)
 		}
-		out = append(out, `{"position":`...)
+		out = append(out, '{')
+		if r.Site != "" {
+			out = append(out, `"site":`...)
+			out = strconv.AppendQuote(out, r.Site)
+			out = append(out, ',')
+		}
+		out = append(out, `"position":`...)
 		out = strconv.AppendQuote(out, r.Position)
 		out = append(out, `,"at":"`...)
 		out = r.At.UTC().AppendFormat(out, time.RFC3339Nano)

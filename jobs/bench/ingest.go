@@ -9,6 +9,12 @@
 // flushed, so each starts with clean buffers. It reports the three rates,
 // the two API rates as fractions of the COPY rate, and each server's peak
 // resident memory and CPU time.
+//
+// Load (`kelvard bench load`) loads the demo fleet into a scratch schema,
+// assesses it, and sends a fixed rate of mixed API requests (drive lists,
+// drive health, findings, a week of readings, posts of new readings) to a
+// `kelvard serve` child on the loopback interface with vegeta, reporting
+// latency percentiles and errors per endpoint against its targets.
 package bench
 
 import (

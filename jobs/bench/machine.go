@@ -1,6 +1,9 @@
 package bench
 
 import (
+	"context"
+	"database/sql"
+	"fmt"
 	"os"
 	"runtime"
 	"strings"
@@ -14,6 +17,9 @@ type Machine struct {
 	// LoadAverage is /proc/loadavg's one-minute figure when the run
 	// started; other work on the machine slows every rate.
 	LoadAverage string
+	// PostgreSQL is the database server's version, where a benchmark
+	// reads it (empty otherwise).
+	PostgreSQL string
 }
 
 func thisMachine() Machine {
@@ -39,4 +45,13 @@ func loadAverage() string {
 		return f[0]
 	}
 	return "unknown"
+}
+
+// postgresVersion asks the database server for its version.
+func postgresVersion(ctx context.Context, db *sql.DB) (string, error) {
+	var v string
+	if err := db.QueryRowContext(ctx, "SHOW server_version").Scan(&v); err != nil {
+		return "", fmt.Errorf("read the PostgreSQL version: %w", err)
+	}
+	return "PostgreSQL " + v, nil
 }
