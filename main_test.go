@@ -204,7 +204,21 @@ func TestCommands(t *testing.T) {
 	if !strings.HasPrefix(runOK("version"), "kelvard ") {
 		t.Error("version")
 	}
-	for _, bad := range [][]string{{}, {"frobnicate"}, {"token"}, {"token", "create", "--role", "boss", "--name", "x"}, {"serve", "--listen"}} {
+	// The online copy holds the tokens made above.
+	copyPath := filepath.Join(t.TempDir(), "copy.db")
+	if !strings.Contains(runOK("backup", copyPath), copyPath) {
+		t.Error("backup does not name its file")
+	}
+	cp, err := store.Open(context.Background(), "sqlite:"+copyPath, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer cp.Close()
+	if toks, err := cp.Tokens(context.Background()); err != nil || len(toks) == 0 {
+		t.Errorf("tokens in the backup: %v %v", toks, err)
+	}
+	for _, bad := range [][]string{{}, {"frobnicate"}, {"token"}, {"token", "create", "--role", "boss", "--name", "x"}, {"serve", "--listen"},
+		{"backup"}, {"backup", copyPath}} {
 		var out, errOut bytes.Buffer
 		if code := run(context.Background(), bad, env, &out, &errOut); code == 0 {
 			t.Errorf("kelvard %v succeeded", bad)
