@@ -181,6 +181,16 @@ func (c *common) logger(stderr io.Writer) (*slog.Logger, error) {
 	return nil, usageError{fmt.Errorf("--log-format %q: want json, text or auto", c.logFormat)}
 }
 
+// openStore is open with the logger the flags ask for, for commands that
+// log nothing of their own.
+func (c *common) openStore(ctx context.Context, stderr io.Writer) (*store.Store, error) {
+	log, err := c.logger(stderr)
+	if err != nil {
+		return nil, err
+	}
+	return c.open(ctx, log)
+}
+
 // open connects to the configured store and applies migrations.
 func (c *common) open(ctx context.Context, log *slog.Logger) (*store.Store, error) {
 	st, err := store.Open(ctx, c.databaseURL, store.Options{Logger: log})
@@ -382,11 +392,7 @@ func cmdMigrate(ctx context.Context, args []string, getenv func(string) string, 
 	if err := parse(fs, args); err != nil {
 		return err
 	}
-	log, err := c.logger(stderr)
-	if err != nil {
-		return err
-	}
-	st, err := c.open(ctx, log)
+	st, err := c.openStore(ctx, stderr)
 	if err != nil {
 		return err
 	}
@@ -409,11 +415,7 @@ func cmdBackup(ctx context.Context, args []string, getenv func(string) string, s
 	if file == "" {
 		return usageError{errors.New("usage: kelvard backup FILE [flags] (the embedded SQLite store; FILE must not exist)")}
 	}
-	log, err := c.logger(stderr)
-	if err != nil {
-		return err
-	}
-	st, err := c.open(ctx, log)
+	st, err := c.openStore(ctx, stderr)
 	if err != nil {
 		return err
 	}
@@ -460,11 +462,7 @@ func cmdToken(ctx context.Context, args []string, getenv func(string) string, st
 		}
 		return usageError{err}
 	}
-	log, err := c.logger(stderr)
-	if err != nil {
-		return err
-	}
-	st, err := c.open(ctx, log)
+	st, err := c.openStore(ctx, stderr)
 	if err != nil {
 		return err
 	}
@@ -599,11 +597,7 @@ func cmdImport(ctx context.Context, args []string, getenv func(string) string, s
 		}
 		in = f
 	}
-	log, err := c.logger(stderr)
-	if err != nil {
-		return err
-	}
-	st, err := c.open(ctx, log)
+	st, err := c.openStore(ctx, stderr)
 	if err != nil {
 		return err
 	}
@@ -666,11 +660,7 @@ func cmdPlan(ctx context.Context, args []string, getenv func(string) string, std
 	if err := opts.Check(view); err != nil {
 		return usageError{err}
 	}
-	log, err := c.logger(stderr)
-	if err != nil {
-		return err
-	}
-	st, err := c.open(ctx, log)
+	st, err := c.openStore(ctx, stderr)
 	if err != nil {
 		return err
 	}
