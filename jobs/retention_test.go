@@ -2,8 +2,10 @@ package jobs
 
 import (
 	"context"
+	"errors"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 	"time"
 
@@ -89,6 +91,24 @@ func TestRetentionRollUp(t *testing.T) {
 			if n != 0 {
 				t.Error("January's partition was not dropped")
 			}
+		}
+		// A late reading for an hour now kept only as an aggregate is
+		// refused, not acknowledged and lost at the next roll-up; one for
+		// a drive with no roll-up in that hour is taken.
+		lateAt := t0.Add(10*24*time.Hour + 5*time.Minute)
+		air := 40.0
+		_, err = r.st.Ingest(ctx, []store.Reading{{PositionID: r.f.Position.ID, At: lateAt, InternalAirC: &air}}, store.IngestOptions{})
+		var ve *store.ValidationError
+		if !errors.As(err, &ve) || len(ve.Fields) != 1 || ve.Fields[0].Field != "at" || !strings.Contains(ve.Fields[0].Reason, "hourly aggregate") {
+			t.Errorf("a late reading in a rolled-up hour: %v", err)
+		}
+		part, err := r.st.Ingest(ctx, []store.Reading{{PositionID: r.f.Position.ID, At: lateAt, InternalAirC: &air}}, store.IngestOptions{Partial: true})
+		if err != nil || part.Inserted != 0 || len(part.Rejected) != 1 {
+			t.Errorf("the same reading with partial: %+v %v", part, err)
+		}
+		other := storetest.Build(t, r.st, "late")
+		if res, err := r.st.Ingest(ctx, []store.Reading{{PositionID: other.Position.ID, At: lateAt, InternalAirC: &air}}, store.IngestOptions{}); err != nil || res.Inserted != 1 {
+			t.Errorf("a late reading of a drive with no roll-up in that hour: %+v %v", res, err)
 		}
 		rolled := r.assess(true)
 		rel := math.Abs(rolled.CapacitorLifeUsedFraction-raw.CapacitorLifeUsedFraction) / raw.CapacitorLifeUsedFraction

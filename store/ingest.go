@@ -227,8 +227,86 @@ func (s *Store) plan(ctx context.Context, db *gorm.DB, rows []Reading, opts Inge
 			}
 		}
 	}
+	if err := s.refuseRolledUp(ctx, db, p, flag); err != nil {
+		return nil, err
+	}
 	slices.SortStableFunc(p.bad, func(a, b FieldError) int { return a.Row - b.Row })
 	return p, nil
+}
+
+// refuseRolledUp flags the good rows that fall in an hour their drive
+// keeps only as a roll-up (health.HourAggregate over (hour, hour+1h]): raw
+// readings older than the raw retention are replaced by hourly aggregates,
+// and an aggregate cannot take in one more reading, so such a row is
+// refused instead of acknowledged and then dropped at the next roll-up.
+// It costs one index probe per month of the batch; only a month with
+// roll-ups is looked at row by row.
+func (s *Store) refuseRolledUp(ctx context.Context, db *gorm.DB, p *ingestPlan, flag func(i int, field, format string, args ...any)) error {
+	var rolled []int
+	for _, m := range p.months {
+		start := time.Date(m/12, time.Month(m%12+1), 1, 0, 0, 0, 0, time.UTC)
+		var n int64
+		if err := db.Raw("SELECT count(*) FROM (SELECT 1 FROM readings_hourly WHERE hour >= ? AND hour < ? LIMIT 1) x",
+			s.timeArg(start.Add(-time.Hour)), s.timeArg(start.AddDate(0, 1, 0))).Scan(&n).Error; err != nil {
+			return fmt.Errorf("look for roll-ups of %s: %w", start.Format("2006-01"), translate(err))
+		}
+		if n > 0 {
+			rolled = append(rolled, m)
+		}
+	}
+	if len(rolled) == 0 {
+		return nil
+	}
+	type span struct{ lo, hi time.Time }
+	spans := map[int64]span{}
+	for _, g := range p.good {
+		if !slices.Contains(rolled, monthOf(g.at)) {
+			continue
+		}
+		sp, ok := spans[g.driveID]
+		if !ok || g.at.Before(sp.lo) {
+			sp.lo = g.at
+		}
+		if !ok || g.at.After(sp.hi) {
+			sp.hi = g.at
+		}
+		spans[g.driveID] = sp
+	}
+	hours := map[int64][]int64{} // drive → rolled-up hours (Unix seconds), ascending
+	for drive, sp := range spans {
+		rows, err := db.Raw("SELECT hour FROM readings_hourly WHERE drive_id = ? AND hour >= ? AND hour < ? ORDER BY hour",
+			drive, s.timeArg(sp.lo.Add(-time.Hour)), s.timeArg(sp.hi)).Rows()
+		if err != nil {
+			return fmt.Errorf("roll-ups of drive %d: %w", drive, translate(err))
+		}
+		for rows.Next() {
+			var h dbTime
+			if err := rows.Scan(&h); err != nil {
+				rows.Close()
+				return fmt.Errorf("scan roll-up hour: %w", err)
+			}
+			hours[drive] = append(hours[drive], h.T.Unix())
+		}
+		err = rows.Err()
+		rows.Close()
+		if err != nil {
+			return fmt.Errorf("roll-ups of drive %d: %w", drive, translate(err))
+		}
+	}
+	kept := p.good[:0]
+	for _, g := range p.good {
+		hs := hours[g.driveID]
+		// The aggregate of hour h covers readings with h < at ≤ h + 1 h.
+		at := g.at.UnixMicro()
+		i := sort.Search(len(hs), func(i int) bool { return hs[i]*1e6 >= at })
+		if i > 0 && at <= (hs[i-1]+3600)*1e6 {
+			flag(g.idx, "at", "falls in an hour kept only as an hourly aggregate (readings older than the raw retention are rolled up); it can no longer be added")
+			continue
+		}
+		kept = append(kept, g)
+	}
+	p.good = kept
+	return nil
 }
 
 // keyIndex returns the map from a good row's natural key to its index in
