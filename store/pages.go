@@ -727,3 +727,28 @@ func (s *Store) SessionToken(ctx context.Context, id int64) (Token, error) {
 	}
 	return t, nil
 }
+
+// EndSessions ends every page session the token has opened so far, on
+// every replica: a session issued before the token's SessionsAfter is
+// refused. Sessions carry their issue time in whole seconds, so the mark is
+// the current whole second: a sign-in right after the sign-out is not
+// refused, and only a session opened within the same second as the
+// sign-out outlives it. The sign-out is audited.
+func (s *Store) EndSessions(ctx context.Context, tokenID int64) error {
+	return s.tx(ctx, func(tx *gorm.DB) error {
+		var t Token
+		if err := tx.Where("id = ?", tokenID).Take(&t).Error; err != nil {
+			if errNoRows(err) {
+				return fmt.Errorf("token %d: %w", tokenID, ErrNotFound)
+			}
+			return fmt.Errorf("end sessions of token %d: %w", tokenID, translate(err))
+		}
+		before := t
+		after := tx.NowFunc().Truncate(time.Second)
+		t.SessionsAfter = &after
+		if err := tx.Select("sessions_after", "updated_at").Save(&t).Error; err != nil {
+			return fmt.Errorf("end sessions of token %d: %w", tokenID, translate(err))
+		}
+		return writeAudit(ctx, tx, "sign-out", "tokens", t.ID, &before, &t)
+	})
+}

@@ -83,10 +83,18 @@ func (h *Handler) signin(w http.ResponseWriter, r *http.Request) {
 	http.Redirect(w, r, localPath(r.PostForm.Get("next"), "/fleet"), http.StatusSeeOther)
 }
 
-// signout ends the session in this browser. The cookie is stateless, so
-// a copy taken elsewhere stays valid until it expires or its token is
-// revoked; revoking the token ends every session at once.
+// signout ends the session: it clears the cookie in this browser and
+// marks the token so that every page session it opened so far, a copied
+// cookie included, is refused on every replica (store.EndSessions).
 func (h *Handler) signout(w http.ResponseWriter, r *http.Request) {
+	if v := viewerFrom(r.Context()); v != nil {
+		// Clearing the cookie is not enough: a copy of it would still be
+		// good until it expires.
+		if err := h.st.EndSessions(r.Context(), v.Token.ID); err != nil {
+			h.serverError(w, r, err)
+			return
+		}
+	}
 	h.setCookie(w, r, h.sessionCookieName(r), "", -1)
 	http.Redirect(w, r, "/signin", http.StatusSeeOther)
 }

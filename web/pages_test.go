@@ -142,8 +142,25 @@ func testSignIn(t *testing.T, f *fleet) {
 		t.Errorf("revoked token's session: %d, want a redirect to sign in", code)
 	}
 
-	// Signing out needs the form token and clears the cookie.
-	c3 := f.signedIn(t, f.viewer)
+	// Signing out needs the form token, clears the cookie and ends the
+	// token's earlier sessions on the server: a cookie of an hour ago,
+	// copied elsewhere, is refused afterwards.
+	outTok, outSecret, err := f.st.CreateToken(ctx, store.NewToken{Name: "signing out", Role: store.RoleViewer})
+	if err != nil {
+		t.Fatal(err)
+	}
+	authed, err := f.st.Authenticate(ctx, outSecret)
+	if err != nil {
+		t.Fatal(err)
+	}
+	copied, err := newSessionValue(f.h.cfg.SessionKey, outTok.ID, authed.Hash, f.st.Now().Add(-time.Hour), 2*time.Hour)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if code := statusWithCookie(t, f, sessionCookie, copied, "/fleet"); code != http.StatusOK {
+		t.Fatalf("an hour-old session before signing out: %d", code)
+	}
+	c3 := f.signedIn(t, outSecret)
 	res, _ = c3.post("/signout", url.Values{})
 	if res.StatusCode != http.StatusForbidden {
 		t.Errorf("sign out without the form token: %d", res.StatusCode)
@@ -154,6 +171,9 @@ func testSignIn(t *testing.T, f *fleet) {
 	}
 	if res, _ := c3.get("/fleet"); res.StatusCode != http.StatusSeeOther {
 		t.Errorf("after signing out the fleet answers %d", res.StatusCode)
+	}
+	if code := statusWithCookie(t, f, sessionCookie, copied, "/fleet"); code != http.StatusSeeOther {
+		t.Errorf("a copy of the signed-out session cookie: %d, want a redirect to sign in", code)
 	}
 
 	// Behind TLS (told by the flag) cookies are Secure and the session

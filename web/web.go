@@ -241,6 +241,9 @@ func (h *Handler) authenticate(r *http.Request) (*viewer, *http.Request, error) 
 	if !checkSession(h.cfg.SessionKey, s, sum, t.Hash) {
 		return nil, r, errBadSession
 	}
+	if t.SessionsAfter != nil && s.IssuedAt.Before(*t.SessionsAfter) {
+		return nil, r, errBadSession // signed out since
+	}
 	v := &viewer{Token: t, CSRF: csrfToken(h.cfg.SessionKey, s), CanAct: canAct(t.Role)}
 	if uc, err := r.Cookie(unitsCookie); err == nil {
 		v.Units = unitsFromCookie(uc.Value)
