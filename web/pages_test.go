@@ -672,6 +672,27 @@ func testUnits(t *testing.T, f *fleet) {
 	if res, _ := c.post("/settings", url.Values{"csrf": {c.csrf}, "units": {"furlongs"}}); res.StatusCode != http.StatusUnprocessableEntity {
 		t.Errorf("unknown units: %d", res.StatusCode)
 	}
+	// The models' own sentences follow the choice too: a finding stated
+	// in °C and K reads in °F on its page and in the list.
+	page, err := f.st.ListFindings(context.Background(), store.ListQuery{Filters: map[string]string{"rule": "environment.ambient_above_rating"}})
+	if err != nil || len(page.Items) == 0 {
+		t.Fatalf("no design-ambient finding in the demo fleet: %v", err)
+	}
+	fd := page.Items[0]
+	if !strings.Contains(fd.Message, "°C") || !strings.Contains(fd.Message, " K ") {
+		t.Fatalf("the finding's message is not in SI units: %q", fd.Message)
+	}
+	for _, p := range []string{fmt.Sprintf("/findings/%d", fd.ID), "/findings?rule=environment.ambient_above_rating"} {
+		doc = c.page(p)
+		sel := doc.Find(fmt.Sprintf("#finding-%d-h", fd.ID))
+		if sel.Length() == 0 {
+			sel = doc.Find("h1")
+		}
+		h := text(sel)
+		if !strings.Contains(h, "°F") || strings.Contains(h, "°C") || strings.Contains(h, " K ") {
+			t.Errorf("%s in imperial units: %q", p, h)
+		}
+	}
 }
 
 // testSelfContained checks that pages load nothing from the network and

@@ -3,6 +3,7 @@ package web
 import (
 	"fmt"
 	"math"
+	"regexp"
 	"strconv"
 	"strings"
 )
@@ -91,6 +92,47 @@ func (u Units) Heat(w float64) string {
 		return trimNum(w/wattsPerBTUPerH, 0) + " Btu/h"
 	}
 	return trimNum(w, 0) + " W"
+}
+
+// siQuantity finds a number with an SI unit in running text: °C for
+// temperatures, K for temperature differences, kW and W.
+var siQuantity = regexp.MustCompile(`(-?\d+(?:\.\d+)?) ?(°C|kW|K|W)\b`)
+
+// Text rewrites the SI quantities in a sentence written by the models
+// (findings' messages and remedies, which state temperatures in °C,
+// differences in K and heat in W) into the reader's units. With SI units,
+// and for a quantity per area or per time other than K per time (W/m²),
+// the text is left as it is.
+func (u Units) Text(s string) string {
+	if !u.Imperial {
+		return s
+	}
+	var b strings.Builder
+	last := 0
+	for _, m := range siQuantity.FindAllStringSubmatchIndex(s, -1) {
+		num, unit := s[m[2]:m[3]], s[m[4]:m[5]]
+		if m[1] < len(s) && s[m[1]] == '/' && unit != "K" {
+			continue // W/m² and the like are not converted
+		}
+		v, err := strconv.ParseFloat(num, 64)
+		if err != nil {
+			continue
+		}
+		b.WriteString(s[last:m[0]])
+		switch unit {
+		case "°C":
+			b.WriteString(u.Temp(v))
+		case "K":
+			b.WriteString(u.Rise(v))
+		case "kW":
+			b.WriteString(u.Power(v))
+		case "W":
+			b.WriteString(u.Heat(v))
+		}
+		last = m[1]
+	}
+	b.WriteString(s[last:])
+	return b.String()
 }
 
 // Value writes a value with its SI unit as findings' evidence carries it,

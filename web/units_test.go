@@ -49,6 +49,33 @@ func TestUnitConversions(t *testing.T) {
 	}
 }
 
+func TestTextInReaderUnits(t *testing.T) {
+	// Conversions by NIST SP 811 (2008), Appendix B, as above: 40 °C =
+	// 104 °F, 134.7 °C = 274.46 °F, a 94.7 K rise = 170.46 °F, 1200 W =
+	// 4094.6 Btu/h, 3 K/week = 5.4 °F/week.
+	imp := Units{Imperial: true}
+	for _, tc := range []struct{ in, want string }{
+		{"At the design maximum of 40.0 °C the air inside the cabinet is predicted at 134.7 °C (94.7 K rise), above the drive's maximum ambient of 55.0 °C.",
+			"At the design maximum of 104 °F the air inside the cabinet is predicted at 274.5 °F (170.5 °F rise), above the drive's maximum ambient of 131 °F."},
+		{"the cabinet's heat load of 1200 W exceeds its cooler's rated 900 W", "the cabinet's heat load of 4095 Btu/h exceeds its cooler's rated 3071 Btu/h"},
+		{"heatsink rise grows 3 K/week at comparable load", "heatsink rise grows 5.4 °F/week at comparable load"},
+		{"a 45 kW drive at -10 °C", "a 60.3 hp drive at 14 °F"},
+		// Left alone: a unit per area, bare numbers, words that only
+		// start like a unit, and running text without quantities.
+		{"design irradiance 1000 W/m²", "design irradiance 1000 W/m²"},
+		{"row 3 of 12, KW-7, Kelvin", "row 3 of 12, KW-7, Kelvin"},
+		{"Replace the fan.", "Replace the fan."},
+	} {
+		if got := imp.Text(tc.in); got != tc.want {
+			t.Errorf("Text(%q)\n got %q\nwant %q", tc.in, got, tc.want)
+		}
+	}
+	msg := "predicted at 134.7 °C (94.7 K rise)"
+	if got := (Units{}).Text(msg); got != msg {
+		t.Errorf("SI text changed: %q", got)
+	}
+}
+
 func TestFormatting(t *testing.T) {
 	for _, tc := range []struct{ got, want string }{
 		{percent(0.5), "50\u00a0%"},
