@@ -5,11 +5,9 @@ import (
 	"database/sql"
 	"fmt"
 	"math"
-	"slices"
 	"strings"
 	"time"
 
-	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgtype"
 	"github.com/jackc/pgx/v5/stdlib"
 	"gorm.io/gorm"
@@ -118,8 +116,7 @@ type ScanFrom struct {
 }
 
 // ScanReadings streams the readings of several drives, each after its own
-// time, each drive's readings together and in time order (the drives in no
-// promised order), as model samples (at second resolution)
+// time, ordered by drive and time, as model samples (at second resolution)
 // with their exact time. fn sees each reading once; an error from fn stops
 // the scan.
 func (s *Store) ScanReadings(ctx context.Context, from []ScanFrom, fn func(driveID, positionID int64, at time.Time, smp health.Sample) error) error {
@@ -135,34 +132,16 @@ func (s *Store) ScanReadings(ctx context.Context, from []ScanFrom, fn func(drive
 const readingColumns = "r.drive_id, r.position_id, r.at, r.internal_air_c, r.ambient_c, r.heatsink_c, r.current_a, r.peak_current_a, " +
 	"r.frequency_hz, r.bus_v, r.bus_ripple_v, r.capacitance_uf, r.esr_milliohm"
 
-// shortScan is the longest span read by per-drive index probes; longer
-// spans are read by one join.
-const shortScan = 14 * 24 * time.Hour
-
 // scanReadingsPG reads with pgx directly on a pooled connection: binary
 // rows and no database/sql conversion, which matters at millions of rows.
-//
-// Two query shapes, because one plan cannot serve both: spans that end
-// near the drive's newest reading (an incremental run takes in the last
-// hour or day) are read by a LATERAL probe of each drive's range in the
-// primary key, fenced with OFFSET 0 so the planner keeps it per drive; a
-// join there let PostgreSQL hash a sequential scan of every partition,
-// blind to the per-drive lower bounds. Long spans (a recompute from a
-// component's fitting, a 90-day window pass) are read by that join, which
-// streams whole partitions in order: measured with bench assess (300
-// drives × 5000 readings, same machine), the full run took 2.0 s by join
-// and 2.6-3.3 s by probes, the incremental one 0.23-0.43 s by probes and
-// 0.6 s by join. The join is bounded below by the earliest span start so
-// partitions before it are pruned. A drive's readings come out together
-// and in time order in either shape; the short spans follow the long ones.
 func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int64, int64, time.Time, health.Sample) error) error {
-	var long, short []ScanFrom
-	now := s.now()
-	for _, f := range from {
-		if f.After.Before(now.Add(-shortScan)) {
-			long = append(long, f)
-		} else {
-			short = append(short, f)
+	ids := make([]int64, len(from))
+	afters := make([]time.Time, len(from))
+	befores := make([]time.Time, len(from))
+	for i, f := range from {
+		ids[i], afters[i], befores[i] = f.DriveID, f.After.UTC(), f.Before.UTC()
+		if f.Before.IsZero() {
+			befores[i] = time.Date(9999, 1, 1, 0, 0, 0, 0, time.UTC)
 		}
 	}
 	conn, err := s.sqlDB.Conn(ctx)
@@ -172,71 +151,37 @@ func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int
 	defer conn.Close()
 	return conn.Raw(func(dc any) error {
 		pc := dc.(*stdlib.Conn).Conn()
-		if len(long) > 0 {
-			ids, afters, befores := scanArrays(long)
-			if err := scanPGRows(ctx, pc, "SELECT "+readingColumns+
-				" FROM unnest($1::bigint[], $2::timestamptz[], $3::timestamptz[]) AS w(drive_id, after_at, before_at)"+
-				" JOIN readings r ON r.drive_id = w.drive_id AND r.at > w.after_at AND r.at < w.before_at"+
-				" WHERE r.at > $4 ORDER BY r.drive_id, r.at",
-				fn, ids, afters, befores, slices.MinFunc(afters, time.Time.Compare)); err != nil {
+		rows, err := pc.Query(ctx, "SELECT "+readingColumns+
+			" FROM unnest($1::bigint[], $2::timestamptz[], $3::timestamptz[]) AS w(drive_id, after_at, before_at)"+
+			" CROSS JOIN LATERAL (SELECT * FROM readings x WHERE x.drive_id = w.drive_id AND x.at > w.after_at AND x.at < w.before_at OFFSET 0) r"+
+			" ORDER BY r.drive_id, r.at",
+			ids, afters, befores)
+		if err != nil {
+			return fmt.Errorf("scan readings: %w", translate(err))
+		}
+		defer rows.Close()
+		var (
+			d, p int64
+			at   time.Time
+			v    [10]pgtype.Float8
+		)
+		dest := []any{&d, &p, &at}
+		for i := range v {
+			dest = append(dest, &v[i])
+		}
+		for rows.Next() {
+			if err := rows.Scan(dest...); err != nil {
+				return fmt.Errorf("scan reading: %w", err)
+			}
+			if err := fn(d, p, at.UTC(), sampleOf(at.Unix(), pgFloats(&v))); err != nil {
 				return err
 			}
 		}
-		if len(short) > 0 {
-			ids, afters, befores := scanArrays(short)
-			return scanPGRows(ctx, pc, "SELECT "+readingColumns+
-				" FROM unnest($1::bigint[], $2::timestamptz[], $3::timestamptz[]) AS w(drive_id, after_at, before_at)"+
-				" CROSS JOIN LATERAL (SELECT * FROM readings x WHERE x.drive_id = w.drive_id AND x.at > w.after_at AND x.at < w.before_at OFFSET 0) r"+
-				" ORDER BY r.drive_id, r.at",
-				fn, ids, afters, befores)
+		if err := rows.Err(); err != nil {
+			return fmt.Errorf("scan readings: %w", translate(err))
 		}
 		return nil
 	})
-}
-
-// scanArrays turns spans into the query's arrays; an open end becomes a
-// time past every reading.
-func scanArrays(from []ScanFrom) (ids []int64, afters, befores []time.Time) {
-	ids = make([]int64, len(from))
-	afters = make([]time.Time, len(from))
-	befores = make([]time.Time, len(from))
-	for i, f := range from {
-		ids[i], afters[i], befores[i] = f.DriveID, f.After.UTC(), f.Before.UTC()
-		if f.Before.IsZero() {
-			befores[i] = time.Date(9999, 1, 1, 0, 0, 0, 0, time.UTC)
-		}
-	}
-	return ids, afters, befores
-}
-
-// scanPGRows runs one readings query and hands each row to fn.
-func scanPGRows(ctx context.Context, pc *pgx.Conn, query string, fn func(int64, int64, time.Time, health.Sample) error, args ...any) error {
-	rows, err := pc.Query(ctx, query, args...)
-	if err != nil {
-		return fmt.Errorf("scan readings: %w", translate(err))
-	}
-	defer rows.Close()
-	var (
-		d, p int64
-		at   time.Time
-		v    [10]pgtype.Float8
-	)
-	dest := []any{&d, &p, &at}
-	for i := range v {
-		dest = append(dest, &v[i])
-	}
-	for rows.Next() {
-		if err := rows.Scan(dest...); err != nil {
-			return fmt.Errorf("scan reading: %w", err)
-		}
-		if err := fn(d, p, at.UTC(), sampleOf(at.Unix(), pgFloats(&v))); err != nil {
-			return err
-		}
-	}
-	if err := rows.Err(); err != nil {
-		return fmt.Errorf("scan readings: %w", translate(err))
-	}
-	return nil
 }
 
 func pgFloats(v *[10]pgtype.Float8) [10]float64 {
