@@ -134,6 +134,14 @@ const readingColumns = "r.drive_id, r.position_id, r.at, r.internal_air_c, r.amb
 
 // scanReadingsPG reads with pgx directly on a pooled connection: binary
 // rows and no database/sql conversion, which matters at millions of rows.
+//
+// Each drive's span is read by a LATERAL probe of its range in the
+// primary key, fenced with OFFSET 0 so the planner keeps it per drive. A
+// plain join of the spans to readings let PostgreSQL hash a sequential
+// scan of every partition, blind to the per-drive bounds: an incremental
+// run then read all history, and a full run read the whole table once per
+// batch of drives (bench assess, 1000 drives x 5000 readings: full 8.8 s by
+// join, 6.2 s by probes; incremental 6.9 s by join, 0.6 s by probes).
 func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int64, int64, time.Time, health.Sample) error) error {
 	ids := make([]int64, len(from))
 	afters := make([]time.Time, len(from))
