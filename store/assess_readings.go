@@ -140,8 +140,9 @@ const readingColumns = "r.drive_id, r.position_id, r.at, r.internal_air_c, r.amb
 // plain join of the spans to readings let PostgreSQL hash a sequential
 // scan of every partition, blind to the per-drive bounds: an incremental
 // run then read all history, and a full run read the whole table once per
-// batch of drives (bench assess, 1000 drives x 5000 readings: full 8.8 s by
-// join, 6.2 s by probes; incremental 6.9 s by join, 0.6 s by probes).
+// batch of drives (bench assess: a full run of 1000 drives x 5000 readings
+// took 8.8 s by join, 6.2 s by probes; the scan of an incremental batch of
+// 100 drives with 20 new readings each 65 ms by join, 8 ms by probes).
 func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int64, int64, time.Time, health.Sample) error) error {
 	ids := make([]int64, len(from))
 	afters := make([]time.Time, len(from))
