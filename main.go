@@ -113,6 +113,33 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 	return 0
 }
 
+// Garbage collector settings of serve, used unless the Go runtime's own
+// GOGC and GOMEMLIMIT are set. Ingest allocates per batch and collects
+// often at the runtime's default GOGC of 100: bench ingest on 2 CPUs spent
+// 1.67 s of server CPU per million CSV readings at 100 and 1.31 s at 400,
+// which moved CSV from 0.75 to 0.82 of COPY's rate, with the server's peak
+// RSS at 125 MB instead of 75 MB (JSON: 168 MB instead of 84 MB). The soft
+// memory limit makes the collector work harder before the heap gets near
+// it, so the higher GOGC cannot run a replica out of memory.
+const (
+	serveGCPercent   = 400
+	serveMemoryLimit = 512 << 20
+)
+
+// tuneGC applies serveGCPercent and serveMemoryLimit where the environment
+// of the process does not set GOGC or GOMEMLIMIT.
+func tuneGC(log *slog.Logger) {
+	if _, set := os.LookupEnv("GOGC"); !set {
+		debug.SetGCPercent(serveGCPercent)
+	}
+	if _, set := os.LookupEnv("GOMEMLIMIT"); !set {
+		debug.SetMemoryLimit(serveMemoryLimit)
+	}
+	gogc := debug.SetGCPercent(-1) // reading it means setting it; put it back
+	debug.SetGCPercent(gogc)
+	log.Debug("garbage collector", slog.Int("gogc", gogc), slog.Int64("memory_limit", debug.SetMemoryLimit(-1)))
+}
+
 // usageError is a mistake on the command line (exit status 2).
 type usageError struct{ error }
 
@@ -251,6 +278,7 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 	if err != nil {
 		return err
 	}
+	tuneGC(log)
 	st, err := c.open(ctx, log)
 	if err != nil {
 		return err
