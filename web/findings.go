@@ -53,12 +53,8 @@ func readFindingsForm(q url.Values) (findingsForm, store.FindingsFilter, error) 
 	if f.Drive, ok = parseID(q.Get("drive")); !ok {
 		bad = append(bad, "drive")
 	}
-	if v := q.Get("page"); v != "" {
-		n, err := strconv.Atoi(v)
-		if err != nil || n < 1 || n > 10000 {
-			bad = append(bad, "page")
-		}
-		f.Page = max(n, 1)
+	if f.Page, ok = parsePage(q.Get("page")); !ok {
+		bad = append(bad, "page")
 	}
 	for _, k := range health.Kinds() {
 		f.Kinds = append(f.Kinds, string(k))

@@ -66,6 +66,16 @@ func parseID(v string) (int64, bool) {
 	return n, err == nil && n > 0
 }
 
+// parsePage reads a 1-based page number (1 to 10 000, 1 when empty); a
+// bad one gives page 1 and false.
+func parsePage(v string) (int, bool) {
+	if v == "" {
+		return 1, true
+	}
+	n, err := strconv.Atoi(v)
+	return max(n, 1), err == nil && n >= 1 && n <= 10000
+}
+
 // readFleetForm reads the fleet filter from the query; bad values are
 // named in the error.
 func readFleetForm(q url.Values) (fleetForm, store.FleetFilter, error) {
@@ -85,12 +95,8 @@ func readFleetForm(q url.Values) (fleetForm, store.FleetFilter, error) {
 		}
 		f.EOL = n
 	}
-	if v := q.Get("page"); v != "" {
-		n, err := strconv.Atoi(v)
-		if err != nil || n < 1 || n > 10000 {
-			bad = append(bad, "page")
-		}
-		f.Page = max(n, 1)
+	if f.Page, ok = parsePage(q.Get("page")); !ok {
+		bad = append(bad, "page")
 	}
 	for _, b := range health.Bands() {
 		f.Bands = append(f.Bands, string(b))

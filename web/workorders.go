@@ -56,12 +56,8 @@ func readWorkOrdersForm(q url.Values) (workOrdersForm, store.WorkOrdersFilter, e
 	if f.Site, ok = parseID(q.Get("site")); !ok {
 		bad = append(bad, "site")
 	}
-	if v := q.Get("page"); v != "" {
-		n, err := strconv.Atoi(v)
-		if err != nil || n < 1 || n > 10000 {
-			bad = append(bad, "page")
-		}
-		f.Page = max(n, 1)
+	if f.Page, ok = parsePage(q.Get("page")); !ok {
+		bad = append(bad, "page")
 	}
 	filter := store.WorkOrdersFilter{SiteID: f.Site, Status: f.Status}
 	switch f.Due {
