@@ -115,12 +115,12 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 
 // Garbage collector settings of serve, used unless the Go runtime's own
 // GOGC and GOMEMLIMIT are set. Ingest allocates per batch and collects
-// often at the runtime's default GOGC of 100: bench ingest on 2 CPUs spent
-// 1.67 s of server CPU per million CSV readings at 100 and 1.31 s at 400,
-// which moved CSV from 0.75 to 0.82 of COPY's rate, with the server's peak
-// RSS at 125 MB instead of 75 MB (JSON: 168 MB instead of 84 MB). The soft
-// memory limit makes the collector work harder before the heap gets near
-// it, so the higher GOGC cannot run a replica out of memory.
+// often at the runtime's default GOGC of 100. bench ingest --rounds 3 on 2
+// CPUs, two runs each: server CPU per million CSV readings 1.67-1.77 s at
+// 100 and 1.42-1.48 s at 400; CSV from 0.72-0.75 to 0.77-0.79 of COPY's
+// rate; server peak RSS 126-149 MB instead of 55-86 MB. The soft memory
+// limit makes the collector work harder before the heap gets near it, so
+// the higher GOGC cannot run a replica out of memory.
 const (
 	serveGCPercent   = 400
 	serveMemoryLimit = 512 << 20
@@ -129,15 +129,16 @@ const (
 // tuneGC applies serveGCPercent and serveMemoryLimit where the environment
 // of the process does not set GOGC or GOMEMLIMIT.
 func tuneGC(log *slog.Logger) {
+	gogc, limit := "from GOGC", "from GOMEMLIMIT"
 	if _, set := os.LookupEnv("GOGC"); !set {
 		debug.SetGCPercent(serveGCPercent)
+		gogc = strconv.Itoa(serveGCPercent)
 	}
 	if _, set := os.LookupEnv("GOMEMLIMIT"); !set {
 		debug.SetMemoryLimit(serveMemoryLimit)
+		limit = strconv.Itoa(serveMemoryLimit)
 	}
-	gogc := debug.SetGCPercent(-1) // reading it means setting it; put it back
-	debug.SetGCPercent(gogc)
-	log.Debug("garbage collector", slog.Int("gogc", gogc), slog.Int64("memory_limit", debug.SetMemoryLimit(-1)))
+	log.Debug("garbage collector", slog.String("gogc", gogc), slog.String("memory_limit_bytes", limit))
 }
 
 // usageError is a mistake on the command line (exit status 2).
