@@ -216,7 +216,15 @@ func (a *Assessor) assessBatch(ctx context.Context, at time.Time, ids []int64, f
 			recomputed++
 		}
 		if pl.scan {
-			from = append(from, store.ScanFrom{DriveID: c.Drive.ID, After: pl.scanAfter})
+			f := store.ScanFrom{DriveID: c.Drive.ID, After: pl.scanAfter}
+			if pl.full {
+				f.Whole = true
+				if c.State != nil {
+					// The last pass's count says how long it is.
+					f.Expect = max(c.State.CapacitorState.Samples, c.State.FanState.Samples)
+				}
+			}
+			from = append(from, f)
 		}
 	}
 	// Drives replayed in full also need the hourly roll-ups of readings

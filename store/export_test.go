@@ -3,3 +3,7 @@ package store
 // ParseCSVQuoted exposes the encoding/csv path of ParseReadingsCSV, so the
 // fuzz test can hold the hand split to it.
 var ParseCSVQuoted = parseCSVQuoted
+
+// SetScanGroupRows lowers the bound on a physical read of whole histories,
+// so a test can make a group outgrow it.
+func SetScanGroupRows(s *Store, n int) { s.scanGroupRows = n }

@@ -47,6 +47,9 @@ type Store struct {
 	log     *slog.Logger
 	now     func() time.Time
 	ingest  ingestState // readings partitions known to exist, per-drive hints
+	// scanGroupRows bounds a physical read of whole histories (0:
+	// physicalGroupRows); tests lower it.
+	scanGroupRows int
 }
 
 // Options tunes Open. The zero value is usable.

@@ -1,0 +1,129 @@
+package store_test
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"slices"
+	"testing"
+	"time"
+
+	"kelvard/health"
+	"kelvard/store"
+	"kelvard/store/storetest"
+)
+
+// scanned is one reading as ScanReadings passes it on.
+type scanned struct {
+	drive, position int64
+	at              time.Time
+	airC            float64
+}
+
+func scanAll(t *testing.T, s *store.Store, from []store.ScanFrom) []scanned {
+	t.Helper()
+	var out []scanned
+	err := s.ScanReadings(context.Background(), from, func(d, p int64, at time.Time, smp health.Sample) error {
+		out = append(out, scanned{d, p, at, smp.InternalAirC})
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
+
+// TestScanReadingsWays holds every way the store reads spans (probes,
+// whole histories read in stored order, a group that outgrows its bound,
+// a history larger than a group) to the same answer: each drive's readings
+// within its own span, together and in time order, each once.
+func TestScanReadingsWays(t *testing.T) {
+	t.Parallel()
+	forEachStore(t, func(t *testing.T, s *store.Store) {
+		ctx := context.Background()
+		base := time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC)
+		var drives []storetest.Fixture
+		for i := range 3 {
+			drives = append(drives, storetest.Build(t, s, fmt.Sprint("scan", i)))
+		}
+		// Two rounds: the later hours first, then the earlier ones, so
+		// the stored order is not time order.
+		want := map[int64][]scanned{}
+		for _, round := range [][2]int{{100, 200}, {0, 100}} {
+			var rows []store.Reading
+			for h := round[0]; h < round[1]; h++ {
+				for i, f := range drives {
+					air := 30 + float64(i) + float64(h)/1000
+					rows = append(rows, store.Reading{PositionID: f.Position.ID, At: base.Add(time.Duration(h) * time.Hour),
+						InternalAirC: &air})
+				}
+			}
+			if _, err := s.Ingest(ctx, rows, store.IngestOptions{}); err != nil {
+				t.Fatal(err)
+			}
+		}
+		// Drive 0 from its first reading on; drive 1 after hour 49 up to
+		// hour 150; drive 2 nothing after the last reading.
+		spans := []store.ScanFrom{
+			{DriveID: drives[2].Drive.ID, After: base.Add(199 * time.Hour)},
+			{DriveID: drives[0].Drive.ID, After: base.Add(-time.Microsecond)},
+			{DriveID: drives[1].Drive.ID, After: base.Add(49 * time.Hour), Before: base.Add(150 * time.Hour)},
+		}
+		for i, f := range drives[:2] {
+			lo, hi := 0, 200
+			if i == 1 {
+				lo, hi = 50, 150
+			}
+			for h := lo; h < hi; h++ {
+				want[f.Drive.ID] = append(want[f.Drive.ID], scanned{f.Drive.ID, f.Position.ID,
+					base.Add(time.Duration(h) * time.Hour), 30 + float64(i) + float64(h)/1000})
+			}
+		}
+		check := func(name string, got []scanned) {
+			t.Helper()
+			byDrive := map[int64][]scanned{}
+			var order []int64
+			for _, r := range got {
+				if n := len(order); n == 0 || order[n-1] != r.drive {
+					if slices.Contains(order, r.drive) {
+						t.Errorf("%s: drive %d's readings are not together", name, r.drive)
+					}
+					order = append(order, r.drive)
+				}
+				byDrive[r.drive] = append(byDrive[r.drive], r)
+			}
+			for id, w := range want {
+				g := byDrive[id]
+				if len(g) != len(w) {
+					t.Errorf("%s: drive %d: %d readings, want %d", name, id, len(g), len(w))
+					continue
+				}
+				for k := range w {
+					if !g[k].at.Equal(w[k].at) || g[k].position != w[k].position || math.Abs(g[k].airC-w[k].airC) > 1e-12 {
+						t.Errorf("%s: drive %d reading %d: %+v, want %+v", name, id, k, g[k], w[k])
+						break
+					}
+				}
+			}
+			if n := len(byDrive[drives[2].Drive.ID]); n != 0 {
+				t.Errorf("%s: drive 2 got %d readings after its last", name, n)
+			}
+		}
+		check("probed", scanAll(t, s, spans))
+		whole := func(expect int64) []store.ScanFrom {
+			out := slices.Clone(spans)
+			for i := range out {
+				out[i].Whole, out[i].Expect = true, expect
+			}
+			return out
+		}
+		check("whole, size unknown", scanAll(t, s, whole(0)))
+		check("whole, size known", scanAll(t, s, whole(200)))
+		store.SetScanGroupRows(s, 150)
+		check("whole, larger than a group", scanAll(t, s, whole(1000)))
+		check("whole, group outgrows its bound", scanAll(t, s, whole(10)))
+		mixed := whole(10)
+		mixed[1].Whole = false // drive 0 probed, the others outgrow their group
+		check("probed and outgrown together", scanAll(t, s, mixed))
+	})
+}
