@@ -13,7 +13,6 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5"
-	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgtype"
 	"github.com/jackc/pgx/v5/stdlib"
 	"gorm.io/gorm"
@@ -190,7 +189,7 @@ func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int
 		return fmt.Errorf("scan readings: %w", translate(err))
 	}
 	defer conn.Close()
-	return conn.Raw(func(dc any) error {
+	err = conn.Raw(func(dc any) error {
 		return pgx.BeginFunc(ctx, dc.(*stdlib.Conn).Conn(), func(tx pgx.Tx) error {
 			// JIT: a long scan's estimated cost is high enough to
 			// compile its plan, which costs more than it saves here.
@@ -231,6 +230,14 @@ func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int
 			return scanProbed(ctx, tx, probed, fn)
 		})
 	})
+	if err != nil && !errors.Is(err, ErrUnavailable) {
+		// Beginning or ending the transaction can meet a lost
+		// connection too.
+		if t := translate(err); errors.Is(t, ErrUnavailable) {
+			return fmt.Errorf("scan readings: %w", t)
+		}
+	}
+	return err
 }
 
 // openEnd stands for a span without an end.
@@ -269,7 +276,7 @@ func scanProbed(ctx context.Context, tx pgx.Tx, spans []ScanFrom, fn func(int64,
 		return fmt.Errorf("scan readings: %w", translate(err))
 	}
 	defer rows.Close()
-	if err := binaryColumns(rows.FieldDescriptions()); err != nil {
+	if err := binaryColumns(rows); err != nil {
 		return fmt.Errorf("scan readings: %w", err)
 	}
 	var (
@@ -315,7 +322,7 @@ func scanPhysical(ctx context.Context, tx pgx.Tx, spans []ScanFrom, limit int, f
 		return fmt.Errorf("scan readings: %w", translate(err))
 	}
 	defer rows.Close()
-	if err := binaryColumns(rows.FieldDescriptions()); err != nil {
+	if err := binaryColumns(rows); err != nil {
 		return fmt.Errorf("scan readings: %w", err)
 	}
 	got := make([][]readingRow, len(spans))
@@ -387,8 +394,17 @@ type readingRow struct {
 const pgEpochMicro = 946684800 * 1e6
 
 // binaryColumns checks that every column of readingColumns comes in
-// PostgreSQL's binary format, which decodeReadingRow reads.
-func binaryColumns(fields []pgconn.FieldDescription) error {
+// PostgreSQL's binary format, which decodeReadingRow reads. A query that
+// failed (the database went away) has no columns: its own error is
+// returned then.
+func binaryColumns(rows pgx.Rows) error {
+	fields := rows.FieldDescriptions()
+	if len(fields) == 0 {
+		rows.Close()
+		if err := rows.Err(); err != nil {
+			return translate(err)
+		}
+	}
 	if len(fields) != 13 {
 		return fmt.Errorf("%d columns, want 13", len(fields))
 	}
