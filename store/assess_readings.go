@@ -306,7 +306,7 @@ func scanProbed(ctx context.Context, tx pgx.Tx, spans []ScanFrom, fn func(int64,
 // scanPhysical reads a group of spans with one query in the order
 // PostgreSQL stores the rows, keeps each drive's rows within its own span,
 // and passes them on by drive and time. It passes nothing on and returns
-// errGroupTooLarge when the group holds more than limit readings and a
+// errGroupTooLarge once it has read more than limit readings and a
 // quarter.
 func scanPhysical(ctx context.Context, tx pgx.Tx, spans []ScanFrom, limit int, fn func(int64, int64, time.Time, health.Sample) error) error {
 	ids := make([]int64, len(spans))
@@ -326,16 +326,19 @@ func scanPhysical(ctx context.Context, tx pgx.Tx, spans []ScanFrom, limit int, f
 		return fmt.Errorf("scan readings: %w", err)
 	}
 	got := make([][]readingRow, len(spans))
-	held := 0
+	read := 0
 	for rows.Next() {
-		if held++; held > limit+limit/4 {
+		if read++; read > limit+limit/4 {
 			return errGroupTooLarge
 		}
 		row, err := decodeReadingRow(rows.RawValues())
 		if err != nil {
 			return fmt.Errorf("scan reading: %w", err)
 		}
-		i := index[row.drive]
+		i, ok := index[row.drive]
+		if !ok {
+			return fmt.Errorf("scan readings: drive %d was not asked for", row.drive)
+		}
 		f := spans[i]
 		if row.atMicro <= f.After.UnixMicro() || row.atMicro >= spanEnd(f).UnixMicro() {
 			continue
@@ -430,10 +433,11 @@ func decodeReadingRow(raw [][]byte) (readingRow, error) {
 	}
 	for i, b := range raw {
 		if b == nil {
-			if i < 3 && i != 1 {
+			switch i {
+			case 0, 2: // drive_id and at are the primary key
 				return r, fmt.Errorf("column %d is null", i)
-			}
-			if i >= 3 {
+			case 1: // no position: left 0
+			default:
 				r.values[i-3] = math.NaN()
 			}
 			continue
