@@ -120,7 +120,8 @@ func TestKubernetesManifests(t *testing.T) {
 		secrets     = map[string]*corev1.Secret{}
 		namespaces  = map[string]bool{}
 	)
-	for _, m := range loadManifests(t) {
+	manifests := loadManifests(t)
+	for _, m := range manifests {
 		switch o := m.obj.(type) {
 		case *appsv1.Deployment:
 			deployments = append(deployments, o)
@@ -131,18 +132,26 @@ func TestKubernetesManifests(t *testing.T) {
 		case *corev1.Secret:
 			secrets[o.Name] = o
 		case *corev1.Namespace:
+			if o.Name == "" {
+				t.Errorf("%s: namespace without a name", m.where)
+			}
 			namespaces[o.Name] = true
 		}
-		if ns, ok := m.obj.(*corev1.Namespace); !ok {
-			meta := m.obj.(interface{ GetNamespace() string })
-			if meta.GetNamespace() == "" {
-				t.Errorf("%s: no namespace", m.where)
-			} else if len(namespaces) > 0 && !namespaces[meta.GetNamespace()] {
-				// namespace.yaml sorts before the rest, so it is known.
-				t.Errorf("%s: namespace %q is not the one namespace.yaml makes", m.where, meta.GetNamespace())
-			}
-		} else if ns.Name == "" {
-			t.Errorf("%s: namespace without a name", m.where)
+	}
+	if len(namespaces) != 1 {
+		t.Errorf("want one Namespace; got %d", len(namespaces))
+	}
+	// Every other object lives in that namespace; checked once all are
+	// read, whatever order the files come in.
+	for _, m := range manifests {
+		if _, ok := m.obj.(*corev1.Namespace); ok {
+			continue
+		}
+		ns := m.obj.(interface{ GetNamespace() string }).GetNamespace()
+		if ns == "" {
+			t.Errorf("%s: no namespace", m.where)
+		} else if !namespaces[ns] {
+			t.Errorf("%s: namespace %q is not the one namespace.yaml makes", m.where, ns)
 		}
 	}
 	if len(deployments) != 1 || len(services) != 1 || secrets["kelvard"] == nil {
