@@ -176,7 +176,7 @@ func redactURL(raw string) string {
 	return u.Redacted()
 }
 
-// Dialect reports which database the store talks to.
+// Dialect reports which database the store uses.
 func (s *Store) Dialect() Dialect { return s.dialect }
 
 // DB returns the GORM handle bound to ctx, for packages inside store and for

@@ -15,7 +15,7 @@ import (
 	"kelvard/store"
 )
 
-// client talks to one server with a bearer token.
+// client sends requests to one server with a bearer token.
 type client struct {
 	base  string
 	token string

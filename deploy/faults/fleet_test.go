@@ -56,7 +56,7 @@ func buildFleet(t *testing.T, st *store.Store, n int) fleet {
 		f.tags = append(f.tags, tag)
 		crit := []string{"A", "B", "C"}[i%3]
 		fmt.Fprintf(&positions, "Fault Works,Pump hall,%s,400,normal,%s\n", tag, crit)
-		fmt.Fprintf(&drives, "%s,FX-45,Fault Works,2024-06-01T00:00:00Z\n", serial)
+		fmt.Fprintf(&drives, "%s,KD-45,Fault Works,2024-06-01T00:00:00Z\n", serial)
 		fmt.Fprintf(&installations, "%s,Fault Works,%s,%s\n", serial, tag, installedAt.Format(time.RFC3339))
 	}
 	files := []struct {
@@ -67,7 +67,7 @@ func buildFleet(t *testing.T, st *store.Store, n int) fleet {
 		{"areas", "site,name,environment.location,environment.ambient_min_c,environment.ambient_max_c,environment.water,environment.dust\n" +
 			"Fault Works,Pump hall,indoor,5,38,none,settling\n"},
 		{"models", "name,voltage_class_v,normal_duty_current_a,normal_duty_power_kw,heavy_duty_current_a,heavy_duty_power_kw,enclosure.nema_type,enclosure.ip_code\n" +
-			"FX-45,480,77,45,65,37,1,IP21\n"},
+			"KD-45,480,77,45,65,37,1,IP21\n"},
 		{"positions", positions.String()},
 		{"drives", drives.String()},
 		{"installations", installations.String()},
