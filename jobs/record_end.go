@@ -24,8 +24,10 @@ const (
 // heartbeat turned stale (10 minutes by default). So while the database is
 // unavailable the write is retried, with backoff, until it succeeds, the
 // staleness limit passes (by then other replicas take the run for
-// abandoned), or Stop's deadline passes. Each attempt runs even when ctx
-// is cancelled.
+// abandoned), or ctx is cancelled (Ctrl-C on `kelvard assess`, or Stop's
+// deadline, which every run's context follows), after one last attempt.
+// Each attempt runs even when ctx is cancelled. The caller's release takes
+// the job out of the running set when the end could not be written.
 func (s *Scheduler) recordEnd(ctx context.Context, e *entry, a *active, id int64, fin store.JobFinish) (store.JobRun, error) {
 	giveUp := time.Now().Add(s.cfg.StaleAfter)
 	wait := endRetryFirst
@@ -38,7 +40,6 @@ func (s *Scheduler) recordEnd(ctx context.Context, e *entry, a *active, id int64
 			return final, nil
 		}
 		if !errors.Is(err, store.ErrUnavailable) || time.Now().Add(wait).After(giveUp) {
-			s.forget(e, a)
 			return final, err
 		}
 		if attempt == 1 {
@@ -46,12 +47,8 @@ func (s *Scheduler) recordEnd(ctx context.Context, e *entry, a *active, id int64
 		}
 		select {
 		case <-time.After(wait):
-		case <-s.base.Done():
-			// Stop's deadline has passed: one last attempt.
-			if final, err = s.tryRecordEnd(ctx, e, a, id, fin); err != nil {
-				s.forget(e, a)
-			}
-			return final, err
+		case <-ctx.Done():
+			return s.tryRecordEnd(ctx, e, a, id, fin)
 		}
 		wait = min(2*wait, endRetryMax)
 	}
@@ -69,14 +66,4 @@ func (s *Scheduler) tryRecordEnd(ctx context.Context, e *entry, a *active, id in
 		delete(s.running, e.name)
 	}
 	return final, err
-}
-
-// forget takes the job out of this process's running set when its end
-// could not be recorded.
-func (s *Scheduler) forget(e *entry, a *active) {
-	s.mu.Lock()
-	defer s.mu.Unlock()
-	if s.running[e.name] == a {
-		delete(s.running, e.name)
-	}
 }

@@ -70,3 +70,41 @@ func TestRunEndRecordedAfterOutage(t *testing.T) {
 		t.Fatalf("next run: %+v %v", next, err)
 	}
 }
+
+// TestRunEndGivesUpWhenCancelled: when the caller cancels a run (Ctrl-C on
+// `kelvard assess`) while the database is away, recording its end makes
+// one last attempt and returns, rather than retrying until the row would
+// turn stale (10 minutes by default).
+func TestRunEndGivesUpWhenCancelled(t *testing.T) {
+	t.Parallel()
+	proxy, u := storetest.NewCutProxy(t, storetest.URL(t, store.Postgres))
+	st, err := store.Open(context.Background(), u, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { st.Close() })
+	if _, err := st.Migrate(context.Background()); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(proxy.Restore)
+	ctx, cancel := context.WithCancel(context.Background())
+	job := funcJob{name: "sweep", run: func(context.Context, time.Time, func(int, int)) (jobs.Stats, error) {
+		proxy.Cut()
+		cancel()
+		return jobs.Stats{}, fmt.Errorf("sweep: %w", store.ErrUnavailable)
+	}}
+	s := newScheduler(t, jobs.Config{Store: st, Jobs: []jobs.Job{job}})
+	done := make(chan error, 1)
+	go func() {
+		_, err := s.Run(ctx, "sweep", nil)
+		done <- err
+	}()
+	select {
+	case err := <-done:
+		if err == nil {
+			t.Fatal("run succeeded with the database away")
+		}
+	case <-time.After(2 * time.Minute):
+		t.Fatal("the cancelled run was still retrying to record its end after 2 minutes")
+	}
+}
