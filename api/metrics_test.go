@@ -8,8 +8,10 @@ import (
 	"net/http/httptest"
 	"os"
 	"os/exec"
+	"regexp"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/prometheus/common/expfmt"
 	"github.com/prometheus/common/model"
@@ -93,7 +95,16 @@ func TestMetricsAfterAssessment(t *testing.T) {
 	t.Parallel()
 	forEachStore(t, func(t *testing.T, h *harness) {
 		f := h.buildFleet("a")
-		h.buildFleet("b")
+		b := h.buildFleet("b")
+		// Three days of running current at fleet b's position, so its
+		// drive has a utilisation.
+		var rows []map[string]any
+		end := time.Now().UTC().Truncate(time.Hour)
+		for i := 72; i > 0; i-- {
+			rows = append(rows, map[string]any{"at": end.Add(-time.Duration(i) * time.Hour).Format(time.RFC3339),
+				"internal_air_c": 35, "ambient_c": 30, "current_a": 15, "frequency_hz": 50})
+		}
+		h.must(http.StatusOK, http.MethodPost, fmt.Sprintf("/api/v1/positions/%d/readings", b.position), h.admin, rows)
 		// A hose-down area for fleet a's Type 1 drive: one critical finding.
 		h.must(http.StatusOK, http.MethodPatch, fmt.Sprintf("/api/v1/areas/%d", f.area), h.admin,
 			map[string]any{"environment": map[string]any{"water": "hose_down"}})
@@ -162,6 +173,22 @@ func TestMetricsAfterAssessment(t *testing.T) {
 		}
 		if fams["kelvard_job_last_success_timestamp_seconds"] == nil || fams["kelvard_job_duration_seconds"] == nil {
 			t.Error("job metrics missing")
+		}
+		// Every metric the shipped alert rules use is served, so no rule
+		// waits on a series that never comes (promtool's rule tests feed
+		// series of their own and cannot tell).
+		alerts, err := os.ReadFile("../deploy/alerts.yml")
+		if err != nil {
+			t.Fatal(err)
+		}
+		used := regexp.MustCompile(`\bkelvard_[a-z_]+\b`).FindAllString(string(alerts), -1)
+		if len(used) == 0 {
+			t.Fatal("deploy/alerts.yml names no kelvard metric")
+		}
+		for _, name := range used {
+			if fams[name] == nil {
+				t.Errorf("deploy/alerts.yml uses %s, which /metrics does not serve", name)
+			}
 		}
 	})
 }

@@ -3,7 +3,6 @@ package deploy
 import (
 	"os"
 	"path/filepath"
-	"regexp"
 	"strings"
 	"testing"
 
@@ -16,10 +15,9 @@ const credentialsFile = "/run/secrets/kelvard_metrics_token"
 
 // prometheusConfigCopy writes deploy/prometheus.yml and deploy/alerts.yml
 // into a temporary folder, with the token file replaced by one that
-// exists there (promtool check config insists the file exists), and with
-// each replacement in edits applied to the configuration. It returns the
-// folder and the configuration's path.
-func prometheusConfigCopy(t *testing.T, edits ...string) (dir, config string) {
+// exists there (promtool check config insists the file exists). It returns
+// the folder and the configuration's path.
+func prometheusConfigCopy(t *testing.T) (dir, config string) {
 	t.Helper()
 	dir = t.TempDir()
 	cfg := string(readFile(t, "deploy/prometheus.yml"))
@@ -31,12 +29,6 @@ func prometheusConfigCopy(t *testing.T, edits ...string) (dir, config string) {
 		t.Fatal(err)
 	}
 	cfg = strings.Replace(cfg, credentialsFile, token, 1)
-	for i := 0; i+1 < len(edits); i += 2 {
-		if !strings.Contains(cfg, edits[i]) {
-			t.Fatalf("deploy/prometheus.yml has no %q to replace", edits[i])
-		}
-		cfg = strings.ReplaceAll(cfg, edits[i], edits[i+1])
-	}
 	config = filepath.Join(dir, "prometheus.yml")
 	if err := os.WriteFile(config, []byte(cfg), 0o600); err != nil {
 		t.Fatal(err)
@@ -119,18 +111,4 @@ func TestAlertRules(t *testing.T) {
 			t.Errorf("alert %s is gone from alerts.yml", a)
 		}
 	}
-}
-
-// alertMetricNames lists the kelvard metric names the alert rules use.
-func alertMetricNames(t *testing.T) []string {
-	t.Helper()
-	names := map[string]bool{}
-	for _, m := range regexp.MustCompile(`\bkelvard_[a-z_]+\b`).FindAllString(string(readFile(t, "deploy/alerts.yml")), -1) {
-		names[m] = true
-	}
-	var out []string
-	for n := range names {
-		out = append(out, n)
-	}
-	return out
 }
