@@ -2,6 +2,7 @@ package web
 
 import (
 	"errors"
+	"log/slog"
 	"net/http"
 	"net/url"
 	"strings"
@@ -86,16 +87,23 @@ func (h *Handler) signin(w http.ResponseWriter, r *http.Request) {
 // signout ends the session: it clears the cookie in this browser and
 // marks the token so that every page session it opened so far, a copied
 // cookie included, is refused on every replica (store.EndSessions).
+//
+// The cookie is cleared first, so this browser is signed out even when the
+// database cannot be reached; the error page then tells the reader that
+// the other sessions could not be ended.
 func (h *Handler) signout(w http.ResponseWriter, r *http.Request) {
+	h.setCookie(w, r, h.sessionCookieName(r), "", -1)
 	if v := viewerFrom(r.Context()); v != nil {
 		// Clearing the cookie is not enough: a copy of it would still be
 		// good until it expires.
 		if err := h.st.EndSessions(r.Context(), v.Token.ID); err != nil {
-			h.serverError(w, r, err)
+			h.log.ErrorContext(r.Context(), "end sessions", slog.Int64("token", v.Token.ID), slog.Any("err", err))
+			h.errorPage(w, r, http.StatusServiceUnavailable,
+				"You are signed out in this browser, but the server could not end this token's other sessions. "+
+					"Sign in and out again once the server answers, or revoke the token.")
 			return
 		}
 	}
-	h.setCookie(w, r, h.sessionCookieName(r), "", -1)
 	http.Redirect(w, r, "/signin", http.StatusSeeOther)
 }
 
