@@ -1,12 +1,10 @@
 package api_test
 
 import (
-	"context"
 	"net/http"
 	"strings"
 	"testing"
 
-	"kelvard/store"
 	"kelvard/store/storetest"
 )
 
@@ -16,16 +14,7 @@ import (
 // again once the database is back.
 func TestLostDatabaseAnswers503(t *testing.T) {
 	t.Parallel()
-	ctx := context.Background()
-	proxy, u := storetest.NewCutProxy(t, storetest.URL(t, store.Postgres))
-	st, err := store.Open(ctx, u, store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { st.Close() })
-	if _, err := st.Migrate(ctx); err != nil {
-		t.Fatal(err)
-	}
+	st, proxy := storetest.OpenCut(t)
 	h := newHarnessWith(t, st, nil)
 	f := storetest.Build(t, st, "cut")
 	reading := `[{"position":"` + f.Position.Tag + `","at":"2021-02-01T00:00:00Z","ambient_c":21}]`

@@ -22,15 +22,7 @@ import (
 func TestRunEndRecordedAfterOutage(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
-	proxy, u := storetest.NewCutProxy(t, storetest.URL(t, store.Postgres))
-	st, err := store.Open(ctx, u, store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { st.Close() })
-	if _, err := st.Migrate(ctx); err != nil {
-		t.Fatal(err)
-	}
+	st, proxy := storetest.OpenCut(t)
 	var calls atomic.Int64
 	restored := make(chan struct{})
 	job := funcJob{name: "sweep", run: func(ctx context.Context, _ time.Time, _ func(int, int)) (jobs.Stats, error) {
@@ -77,15 +69,7 @@ func TestRunEndRecordedAfterOutage(t *testing.T) {
 // turn stale (10 minutes by default).
 func TestRunEndGivesUpWhenCancelled(t *testing.T) {
 	t.Parallel()
-	proxy, u := storetest.NewCutProxy(t, storetest.URL(t, store.Postgres))
-	st, err := store.Open(context.Background(), u, store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { st.Close() })
-	if _, err := st.Migrate(context.Background()); err != nil {
-		t.Fatal(err)
-	}
+	st, proxy := storetest.OpenCut(t)
 	t.Cleanup(proxy.Restore)
 	ctx, cancel := context.WithCancel(context.Background())
 	job := funcJob{name: "sweep", run: func(context.Context, time.Time, func(int, int)) (jobs.Stats, error) {

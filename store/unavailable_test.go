@@ -17,15 +17,7 @@ import (
 func TestLostDatabaseIsUnavailable(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
-	proxy, u := storetest.NewCutProxy(t, storetest.URL(t, store.Postgres))
-	s, err := store.Open(ctx, u, store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer s.Close()
-	if _, err := s.Migrate(ctx); err != nil {
-		t.Fatal(err)
-	}
+	s, proxy := storetest.OpenCut(t)
 	f := storetest.Build(t, s, "cut")
 	v := 21.0
 	rows := []store.Reading{{Position: f.Position.Tag, At: time.Date(2021, 2, 1, 0, 0, 0, 0, time.UTC), AmbientC: &v}}
@@ -37,7 +29,7 @@ func TestLostDatabaseIsUnavailable(t *testing.T) {
 		}
 	}
 	proxy.Cut()
-	_, err = store.List[store.Site](ctx, s, store.ListQuery{})
+	_, err := store.List[store.Site](ctx, s, store.ListQuery{})
 	unavailable("list", err)
 	_, err = s.Ingest(ctx, rows, store.IngestOptions{})
 	unavailable("ingest", err)

@@ -97,14 +97,29 @@ func Open(t testing.TB, d store.Dialect) *store.Store {
 // OpenWith is Open with options (a pinned clock, say).
 func OpenWith(t testing.TB, d store.Dialect, opts store.Options) *store.Store {
 	t.Helper()
+	return openURL(t, URL(t, d), opts)
+}
+
+// OpenCut returns a fresh, migrated PostgreSQL store that reaches the
+// database through a CutProxy, and the proxy, so the test can cut the
+// connection under the store and restore it.
+func OpenCut(t testing.TB) (*store.Store, *CutProxy) {
+	t.Helper()
+	proxy, u := NewCutProxy(t, URL(t, store.Postgres))
+	return openURL(t, u, store.Options{}), proxy
+}
+
+// openURL opens and migrates the store at u, closed when the test ends.
+func openURL(t testing.TB, u string, opts store.Options) *store.Store {
+	t.Helper()
 	ctx := context.Background()
-	s, err := store.Open(ctx, URL(t, d), opts)
+	s, err := store.Open(ctx, u, opts)
 	if err != nil {
-		t.Fatalf("open %s store: %v", d, err)
+		t.Fatalf("open store: %v", err)
 	}
 	t.Cleanup(func() { s.Close() })
 	if _, err := s.Migrate(ctx); err != nil {
-		t.Fatalf("migrate %s store: %v", d, err)
+		t.Fatalf("migrate store: %v", err)
 	}
 	return s
 }
