@@ -64,8 +64,9 @@ type Assessment struct {
 	RiskScore                 float64     `json:"risk_score"`
 	HealthScore               float64     `json:"health_score"`
 	// Report is the whole health.DriveAssessment as JSON, kept as bytes:
-	// nothing queries inside it, and the database need not parse it.
-	Report json.RawMessage `json:"report" gorm:"type:bytea"`
+	// the database need not parse it on every save. The planning queries
+	// that cut parts out of it read it as text (store/planning.go).
+	Report json.RawMessage `json:"report"`
 }
 
 // AssessmentDay is one drive's assessment on one UTC day, kept for trends.

@@ -71,8 +71,8 @@ func (s *Store) Audit(ctx context.Context, q AuditQuery) (Page[AuditEntry], erro
 	}
 	var fe fieldErrors
 	for _, f := range [][2]string{{"resource", q.Resource}, {"actor", q.Actor}} {
-		if !goodText(f[1]) {
-			fe.add(f[0], "%s", badTextReason)
+		if !GoodText(f[1]) {
+			fe.add(f[0], "%s", BadTextReason)
 		}
 	}
 	if err := fe.err(); err != nil {

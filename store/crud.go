@@ -109,8 +109,8 @@ func applyFilters(q *gorm.DB, info *ResourceInfo, values map[string]string) (*go
 				fe.add(f.Param, "must be at most 200 characters")
 				continue
 			}
-			if !goodText(v) {
-				fe.add(f.Param, "%s", badTextReason)
+			if !GoodText(v) {
+				fe.add(f.Param, "%s", BadTextReason)
 				continue
 			}
 			q = q.Where(f.Column+" = ?", v)

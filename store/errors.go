@@ -119,7 +119,7 @@ func translate(err error) error {
 		case "22021", "22P05":
 			// A NUL character or bytes that are not UTF-8 reached a text
 			// value: bad input that a check upstream let through.
-			return fmt.Errorf("%w: %w", &ValidationError{Fields: []FieldError{{Field: "text", Reason: "a value " + badTextReason}}}, err)
+			return fmt.Errorf("%w: %w", &ValidationError{Fields: []FieldError{{Field: "text", Reason: "a value " + BadTextReason}}}, err)
 		}
 	}
 	if isConnError(err) {

@@ -144,11 +144,11 @@ func (s *Store) plan(ctx context.Context, db *gorm.DB, rows []Reading, opts Inge
 	// Checks that need no lookups.
 	for i := range rows {
 		r := &rows[i]
-		if !goodText(r.Position) {
-			flag(i, "position", "%s", badTextReason)
+		if !GoodText(r.Position) {
+			flag(i, "position", "%s", BadTextReason)
 		}
-		if !goodText(r.Site) {
-			flag(i, "site", "%s", badTextReason)
+		if !GoodText(r.Site) {
+			flag(i, "site", "%s", BadTextReason)
 		}
 		switch {
 		case r.At.IsZero():
@@ -184,7 +184,7 @@ func (s *Store) plan(ctx context.Context, db *gorm.DB, rows []Reading, opts Inge
 	lastMonth := -1
 	for i := range rows {
 		r := &rows[i]
-		if !goodText(r.Position) || !goodText(r.Site) {
+		if !GoodText(r.Position) || !GoodText(r.Site) {
 			continue // flagged above; never looked up
 		}
 		pos, how := positions.resolve(r, fixed)
@@ -411,7 +411,7 @@ func (s *Store) lookupPositions(ctx context.Context, db *gorm.DB, rows []Reading
 			switch {
 			case rows[i].PositionID > 0:
 				idSet[rows[i].PositionID] = struct{}{}
-			case rows[i].Position != "" && goodText(rows[i].Position):
+			case rows[i].Position != "" && GoodText(rows[i].Position):
 				tagSet[rows[i].Position] = struct{}{}
 			}
 		}

@@ -363,8 +363,8 @@ func (s *Store) JobRuns(ctx context.Context, q JobRunQuery) (Page[JobRun], error
 	if limit > MaxLimit {
 		return Page[JobRun]{}, Invalid("limit", "must be at most %d", MaxLimit)
 	}
-	if !goodText(q.Job) {
-		return Page[JobRun]{}, Invalid("job", "%s", badTextReason)
+	if !GoodText(q.Job) {
+		return Page[JobRun]{}, Invalid("job", "%s", BadTextReason)
 	}
 	db := s.db.WithContext(ctx).Model(&JobRun{})
 	if q.Job != "" {

@@ -7,14 +7,14 @@ import (
 	"unicode/utf8"
 )
 
-// badTextReason is the reason given for text PostgreSQL cannot store: it
+// BadTextReason is the reason given for text PostgreSQL cannot store: it
 // refuses a NUL character and bytes that are not UTF-8 in text columns and
 // parameters (and would answer 500), so both stores refuse them up front,
-// as the register CSV importer does.
-const badTextReason = "is not UTF-8 text or holds a NUL character"
+// and so does the register CSV importer.
+const BadTextReason = "is not UTF-8 text or holds a NUL character"
 
-// goodText reports whether s can be stored as text.
-func goodText(s string) bool {
+// GoodText reports whether s can be stored as text.
+func GoodText(s string) bool {
 	return utf8.ValidString(s) && !strings.ContainsRune(s, 0)
 }
 
@@ -41,8 +41,8 @@ func walkText(v reflect.Value, path string, out *[]FieldError) {
 			walkText(v.Elem(), path, out)
 		}
 	case reflect.String:
-		if !goodText(v.String()) {
-			*out = append(*out, FieldError{Field: orBody(path), Reason: badTextReason})
+		if !GoodText(v.String()) {
+			*out = append(*out, FieldError{Field: orBody(path), Reason: BadTextReason})
 		}
 	case reflect.Struct:
 		t := v.Type()
@@ -70,8 +70,8 @@ func walkText(v reflect.Value, path string, out *[]FieldError) {
 			key := ""
 			if k.Kind() == reflect.String {
 				key = k.String()
-				if !goodText(key) {
-					*out = append(*out, FieldError{Field: orBody(path), Reason: "has a key that " + badTextReason})
+				if !GoodText(key) {
+					*out = append(*out, FieldError{Field: orBody(path), Reason: "has a key that " + BadTextReason})
 					continue
 				}
 			}

@@ -36,14 +36,14 @@ func TestTextProblemsWalksEverything(t *testing.T) {
 		got = append(got, fe.Field+": "+fe.Reason)
 	}
 	want := []string{
-		"Plain: " + badTextReason,
-		"any: " + badTextReason,
-		"inner.more: has a key that " + badTextReason,
-		"inner.more.k: " + badTextReason,
-		"inner.more.n.deep: " + badTextReason,
-		"inner.tag: " + badTextReason,
-		"inner.tags: " + badTextReason,
-		"ptr.tag: " + badTextReason,
+		"Plain: " + BadTextReason,
+		"any: " + BadTextReason,
+		"inner.more: has a key that " + BadTextReason,
+		"inner.more.k: " + BadTextReason,
+		"inner.more.n.deep: " + BadTextReason,
+		"inner.tag: " + BadTextReason,
+		"inner.tags: " + BadTextReason,
+		"ptr.tag: " + BadTextReason,
 	}
 	if !reflect.DeepEqual(got, want) {
 		t.Errorf("textProblems:\n%q\nwant\n%q", got, want)

@@ -3,8 +3,9 @@ package store
 import "slices"
 
 // WorkTask is what a work order line asks the trade to do, as a stable
-// snake_case id in plain trade words. Titles and default labour live with
-// the planning code (jobs/plan); the store only checks the id.
+// snake_case id in plain trade words, with its title (Title) and the kind
+// of action it is (DefaultAction); the parts and default labour for a task
+// live with the planning code (store/plan).
 type WorkTask string
 
 // Work tasks.

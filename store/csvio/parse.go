@@ -168,8 +168,8 @@ func (t *table) readRow(rec []string, line, n int) *row {
 		if cell == "" {
 			continue
 		}
-		if !utf8.ValidString(cell) || strings.ContainsRune(cell, 0) {
-			r.bad(c.name, "is not UTF-8 text or holds a NUL character")
+		if !store.GoodText(cell) {
+			r.bad(c.name, "%s", store.BadTextReason)
 			continue
 		}
 		v, err := parseCell(c.typ, cell)

@@ -1,8 +1,8 @@
 // Package plan turns the assessments and the register's history into
 // plans: the replacement forecast with its budget, the fleet's failure
-// statistics with the spares to hold, and work orders. It owns the nightly
-// planning job (Job, name "plan") and the `kelvard plan` command, and the
-// CSV and iCalendar formats of the exports.
+// statistics with the spares to hold, and work orders. It owns the
+// `kelvard plan` command and the CSV and iCalendar formats of the exports;
+// the nightly planning job that runs it is in jobs/plan.
 //
 // Forecast (BuildForecast): each drive's capacitor and fan end of life from
 // its latest assessment (health.LifeReport: (1 - D)/r at the
