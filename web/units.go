@@ -95,40 +95,55 @@ func (u Units) Heat(w float64) string {
 }
 
 // siQuantity finds a number with an SI unit in running text: °C for
-// temperatures, K for temperature differences, kW and W.
-var siQuantity = regexp.MustCompile(`(-?\d+(?:\.\d+)?) ?(°C|kW|K|W)\b`)
+// temperatures, K for temperature differences, kW and W; or a range of two
+// numbers sharing the unit ("50-55 °C", "between 0 and 40 °C"), whose
+// first number is group 1 and second group 3.
+var siQuantity = regexp.MustCompile(`(-?\d+(?:\.\d+)?)(?:( ?(?:–|-|to|and) ?)(-?\d+(?:\.\d+)?))? ?(°C|kW|K|W)\b`)
 
 // Text rewrites the SI quantities in a sentence written by the models
 // (findings' messages and remedies, which state temperatures in °C,
-// differences in K and heat in W) into the reader's units. With SI units,
-// and for a quantity per area or per time other than K per time (W/m²),
-// the text is left as it is.
+// differences in K and heat in W) into the reader's units, both ends of a
+// range included. With SI units, for a quantity per area or per time
+// other than K per time (W/m²), and in a sentence that already speaks of
+// °F (the data-quality rule that suspects a sensor logs in °F, whose
+// numbers are about what was logged), the text is left as it is.
 func (u Units) Text(s string) string {
-	if !u.Imperial {
+	if !u.Imperial || strings.Contains(s, "°F") {
 		return s
+	}
+	convert := func(v float64, unit string) string {
+		switch unit {
+		case "°C":
+			return u.Temp(v)
+		case "K":
+			return u.Rise(v)
+		case "kW":
+			return u.Power(v)
+		}
+		return u.Heat(v)
 	}
 	var b strings.Builder
 	last := 0
 	for _, m := range siQuantity.FindAllStringSubmatchIndex(s, -1) {
-		num, unit := s[m[2]:m[3]], s[m[4]:m[5]]
+		unit := s[m[8]:m[9]]
 		if m[1] < len(s) && s[m[1]] == '/' && unit != "K" {
 			continue // W/m² and the like are not converted
 		}
-		v, err := strconv.ParseFloat(num, 64)
+		v, err := strconv.ParseFloat(s[m[2]:m[3]], 64)
 		if err != nil {
 			continue
 		}
 		b.WriteString(s[last:m[0]])
-		switch unit {
-		case "°C":
-			b.WriteString(u.Temp(v))
-		case "K":
-			b.WriteString(u.Rise(v))
-		case "kW":
-			b.WriteString(u.Power(v))
-		case "W":
-			b.WriteString(u.Heat(v))
+		if m[6] >= 0 { // a range: the first number without its unit
+			hi, err := strconv.ParseFloat(s[m[6]:m[7]], 64)
+			if err != nil {
+				continue
+			}
+			lo, _, _ := strings.Cut(convert(v, unit), " ")
+			b.WriteString(lo + s[m[4]:m[5]])
+			v = hi
 		}
+		b.WriteString(convert(v, unit))
 		last = m[1]
 	}
 	b.WriteString(s[last:])

@@ -60,6 +60,15 @@ func TestTextInReaderUnits(t *testing.T) {
 		{"the cabinet's heat load of 1200 W exceeds its cooler's rated 900 W", "the cabinet's heat load of 4095 Btu/h exceeds its cooler's rated 3071 Btu/h"},
 		{"heatsink rise grows 3 K/week at comparable load", "heatsink rise grows 5.4 °F/week at comparable load"},
 		{"a 45 kW drive at -10 °C", "a 60.3 hp drive at 14 °F"},
+		// Ranges convert both ends: 50 °C = 122 °F, 55 °C = 131 °F, 0 °C =
+		// 32 °F (NIST SP 811, as above).
+		{"kept at 50-55 °C", "kept at 122-131 °F"},
+		{"between 0 and 40 °C", "between 32 and 104 °F"},
+		{"from -10 to 40 °C", "from 14 to 104 °F"},
+		// The rule that suspects a sensor logs in °F speaks of the logged
+		// numbers: left alone.
+		{"the median ambient of 95.0 °C is above 70 °C, air no drive is rated for; read as °F it would be 35.0 °C",
+			"the median ambient of 95.0 °C is above 70 °C, air no drive is rated for; read as °F it would be 35.0 °C"},
 		// Left alone: a unit per area, bare numbers, words that only
 		// start like a unit, and running text without quantities.
 		{"design irradiance 1000 W/m²", "design irradiance 1000 W/m²"},
