@@ -859,6 +859,9 @@ func cmdBench(ctx context.Context, args []string, getenv func(string) string, st
 			return err
 		}
 		cfg.DatabaseURL, cfg.Progress = c.databaseURL, stderr
+		if cfg.Drives < 1 || cfg.ReadingsPerDrive < 2 || cfg.ScrapeDrives < cfg.Drives {
+			return usageError{errors.New("bench assess: --drives must be at least 1, --readings at least 2, and --scrape-drives at least --drives")}
+		}
 		rep, err := bench.Assess(ctx, cfg)
 		if err != nil {
 			return err

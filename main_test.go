@@ -608,6 +608,8 @@ func TestBenchAndLimitArguments(t *testing.T) {
 		{[]string{"bench", "load", "--duration", "11m"}, nil, 2, "--duration 11m0s: want 1s to 10m0s"},
 		{[]string{"bench", "load", "--workers", "20", "--max-workers", "10"}, nil, 2, "want 1 ≤ workers ≤ max workers"},
 		{[]string{"bench", "assess"}, nil, 1, "needs a PostgreSQL database"},
+		{[]string{"bench", "assess", "--drives", "-3"}, nil, 2, "--drives must be at least 1"},
+		{[]string{"bench", "assess", "--drives", "20", "--scrape-drives", "10"}, nil, 2, "--scrape-drives at least --drives"},
 		{[]string{"bench", "ingest", "-n", "0"}, nil, 2, "must be positive"},
 		{[]string{"bench", "ingest", "--database-url", "sqlite:x.db"}, nil, 1, "needs a PostgreSQL database"},
 		{[]string{"serve"}, map[string]string{"KELVARD_MAX_INGEST_ROWS": "many"}, 2, "KELVARD_MAX_INGEST_ROWS"},

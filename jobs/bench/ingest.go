@@ -20,9 +20,7 @@ package bench
 import (
 	"bytes"
 	"context"
-	"crypto/rand"
 	"database/sql"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -186,38 +184,12 @@ func Ingest(ctx context.Context, cfg IngestConfig) (IngestReport, error) {
 		Senders: cfg.Senders, Rounds: cfg.Rounds}
 	say := func(format string, args ...any) { fmt.Fprintf(cfg.Progress, format+"\n", args...) }
 
-	admin, err := sql.Open("pgx", cfg.DatabaseURL)
+	sc, err := openScratch(ctx, cfg.DatabaseURL, "kelvard_bench_ingest", "csv", "json", "copy")
 	if err != nil {
-		return rep, fmt.Errorf("open %s: %w", redact(cfg.DatabaseURL), err)
+		return rep, err
 	}
-	defer admin.Close()
-	if err := admin.PingContext(ctx); err != nil {
-		return rep, fmt.Errorf("connect to %s: %w", redact(cfg.DatabaseURL), err)
-	}
-	tag := make([]byte, 4)
-	rand.Read(tag)
-	prefix := "kelvard_bench_" + hex.EncodeToString(tag)
-	sch := map[string]string{"csv": prefix + "_csv", "json": prefix + "_json", "copy": prefix + "_copy"}
-	defer func() {
-		cctx, cancel := context.WithTimeout(context.Background(), time.Minute)
-		defer cancel()
-		for _, s := range sch {
-			if _, err := admin.ExecContext(cctx, "DROP SCHEMA IF EXISTS "+s+" CASCADE"); err != nil {
-				say("drop scratch schema %s: %v", s, err)
-			}
-		}
-	}()
-	for _, s := range sch {
-		if _, err := admin.ExecContext(ctx, "CREATE SCHEMA "+s); err != nil {
-			return rep, fmt.Errorf("create scratch schema: %w", err)
-		}
-	}
-	urls := map[string]string{}
-	for k, s := range sch {
-		if urls[k], err = schemaURL(cfg.DatabaseURL, s); err != nil {
-			return rep, err
-		}
-	}
+	defer sc.drop(say)
+	admin, sch, urls := sc.admin, sc.schemas, sc.urls
 
 	tl := newTimeline(time.Now(), cfg.Readings, cfg.Positions)
 	secret, err := store.NewSecret()

@@ -3,29 +3,17 @@ package bench_test
 import (
 	"bytes"
 	"context"
-	"os/exec"
-	"path/filepath"
 	"strings"
 	"testing"
 
 	"kelvard/jobs/bench"
-	"kelvard/store"
 	"kelvard/store/storetest"
 )
 
 // TestIngestBenchmark builds kelvard, runs a small ingest benchmark with it
 // as the server and checks the report.
 func TestIngestBenchmark(t *testing.T) {
-	storetest.URL(t, store.Postgres) // skips, or fails under CI, without PostgreSQL
-	goTool, err := exec.LookPath("go")
-	if err != nil {
-		t.Fatalf("the go tool is needed to build kelvard: %v", err)
-	}
-	bin := filepath.Join(t.TempDir(), "kelvard")
-	build := exec.Command(goTool, "build", "-o", bin, "kelvard")
-	if out, err := build.CombinedOutput(); err != nil {
-		t.Fatalf("build kelvard: %v\n%s", err, out)
-	}
+	bin := kelvardBinary(t)
 	var progress bytes.Buffer
 	rep, err := bench.Ingest(context.Background(), bench.IngestConfig{
 		DatabaseURL: storetest.PostgresURL(), Readings: 3000, Positions: 20, BatchRows: 400, Senders: 2,

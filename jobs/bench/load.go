@@ -3,9 +3,7 @@ package bench
 import (
 	"cmp"
 	"context"
-	"crypto/rand"
 	"database/sql"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -273,32 +271,13 @@ func Load(ctx context.Context, cfg LoadConfig) (LoadReport, error) {
 		Workers: cfg.Workers, MaxWorkers: cfg.MaxWorkers, Seed: cfg.Seed}
 	say := func(format string, args ...any) { fmt.Fprintf(cfg.Progress, format+"\n", args...) }
 
-	admin, err := sql.Open("pgx", cfg.DatabaseURL)
+	sc, err := openScratch(ctx, cfg.DatabaseURL, "kelvard_bench", "load")
 	if err != nil {
-		return rep, fmt.Errorf("open %s: %w", redact(cfg.DatabaseURL), err)
-	}
-	defer admin.Close()
-	if err := admin.PingContext(ctx); err != nil {
-		return rep, fmt.Errorf("connect to %s: %w", redact(cfg.DatabaseURL), err)
-	}
-	if rep.Machine.PostgreSQL, err = postgresVersion(ctx, admin); err != nil {
 		return rep, err
 	}
-	tag := make([]byte, 4)
-	rand.Read(tag)
-	schema := "kelvard_bench_load_" + hex.EncodeToString(tag)
-	if _, err := admin.ExecContext(ctx, "CREATE SCHEMA "+schema); err != nil {
-		return rep, fmt.Errorf("create scratch schema: %w", err)
-	}
-	defer func() {
-		cctx, cancel := context.WithTimeout(context.Background(), 2*time.Minute)
-		defer cancel()
-		if _, err := admin.ExecContext(cctx, "DROP SCHEMA IF EXISTS "+schema+" CASCADE"); err != nil {
-			say("drop scratch schema %s: %v", schema, err)
-		}
-	}()
-	dbURL, err := schemaURL(cfg.DatabaseURL, schema)
-	if err != nil {
+	defer sc.drop(say)
+	admin, schema, dbURL := sc.admin, sc.schemas["load"], sc.urls["load"]
+	if rep.Machine.PostgreSQL, err = postgresVersion(ctx, admin); err != nil {
 		return rep, err
 	}
 	secret, err := store.NewSecret()

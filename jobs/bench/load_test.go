@@ -3,14 +3,11 @@ package bench_test
 import (
 	"bytes"
 	"context"
-	"os/exec"
-	"path/filepath"
 	"strings"
 	"testing"
 	"time"
 
 	"kelvard/jobs/bench"
-	"kelvard/store"
 	"kelvard/store/storetest"
 )
 
@@ -19,16 +16,7 @@ import (
 // reports: every endpoint was asked, nothing failed, every post stored its
 // rows, and the figures hang together.
 func TestLoadBenchmark(t *testing.T) {
-	storetest.URL(t, store.Postgres) // skips, or fails under CI, without PostgreSQL
-	goTool, err := exec.LookPath("go")
-	if err != nil {
-		t.Fatalf("the go tool is needed to build kelvard: %v", err)
-	}
-	bin := filepath.Join(t.TempDir(), "kelvard")
-	build := exec.Command(goTool, "build", "-o", bin, "kelvard")
-	if out, err := build.CombinedOutput(); err != nil {
-		t.Fatalf("build kelvard: %v\n%s", err, out)
-	}
+	bin := kelvardBinary(t)
 	for _, c := range []struct {
 		name      string
 		positions int
