@@ -5,7 +5,6 @@ import (
 	"database/sql"
 	"fmt"
 	"net/url"
-	"os/exec"
 	"path/filepath"
 	"testing"
 	"time"
@@ -26,12 +25,7 @@ import (
 // and partitions came back too).
 func TestPgDumpRestoreRoundTrip(t *testing.T) {
 	for _, tool := range []string{"pg_dump", "pg_restore"} {
-		if _, err := exec.LookPath(tool); err != nil {
-			if storetest.RequirePostgres() {
-				t.Fatalf("%s not found: install PostgreSQL's client tools", tool)
-			}
-			t.Skipf("%s not found", tool)
-		}
+		requireTool(t, tool, "postgresql-client")
 	}
 	ctx := context.Background()
 	now := time.Date(2026, 2, 10, 0, 0, 0, 0, time.UTC)

@@ -2,12 +2,10 @@ package deploy
 
 import (
 	"debug/elf"
-	"os"
 	"os/exec"
 	"path/filepath"
 	"regexp"
 	"strings"
-	"sync"
 	"testing"
 )
 
@@ -38,22 +36,12 @@ func parseDockerfile(src string) []instruction {
 	return out
 }
 
-// dockerBuild is the binary the Dockerfile's build command makes, built
-// once per test process.
-var dockerBuild struct {
-	once sync.Once
-	dir  string
-	bin  string
-	err  error
-	out  string
-}
-
 // goBuildRE takes the build stage's command from CGO_ENABLED=0 on.
 var goBuildRE = regexp.MustCompile(`CGO_ENABLED=0 .*go build .*-o (\S+) \.$`)
 
 // buildAsDockerfile runs the Dockerfile's `go build` line on this machine
-// (with VERSION=test and the output in a temporary folder) and returns the
-// binary. The first call takes a minute or two on a cold build cache
+// (with VERSION=test and the output in the test's temporary folder) and
+// returns the binary. It takes a minute or two on a cold build cache
 // (-trimpath compiles everything again); later runs reuse the cache.
 func buildAsDockerfile(t *testing.T) string {
 	t.Helper()
@@ -67,40 +55,19 @@ func buildAsDockerfile(t *testing.T) string {
 	if m == nil {
 		t.Fatalf("no `CGO_ENABLED=0 … go build … -o OUT .` in the Dockerfile's RUN lines: %q", run)
 	}
-	dockerBuild.once.Do(func() {
-		dir, err := filepath.Abs(root)
-		if err != nil {
-			dockerBuild.err = err
-			return
-		}
-		// A folder that outlives the test that builds, for the others to
-		// reuse; TestMain removes it.
-		tmp, err := os.MkdirTemp("", "kelvard-deploy-")
-		if err != nil {
-			dockerBuild.err = err
-			return
-		}
-		dockerBuild.dir = tmp
-		dockerBuild.bin = filepath.Join(tmp, "kelvard")
-		line := m[0][:len(m[0])-len(m[1])-2] + dockerBuild.bin + " ."
-		line = strings.ReplaceAll(line, "${VERSION}", "test")
-		cmd := exec.Command("sh", "-c", line)
-		cmd.Dir = dir
-		out, err := cmd.CombinedOutput()
-		dockerBuild.out, dockerBuild.err = line+"\n"+string(out), err
-	})
-	if dockerBuild.err != nil {
-		t.Fatalf("build as the Dockerfile does: %v\n%s", dockerBuild.err, dockerBuild.out)
+	dir, err := filepath.Abs(root)
+	if err != nil {
+		t.Fatal(err)
 	}
-	return dockerBuild.bin
-}
-
-func TestMain(m *testing.M) {
-	code := m.Run()
-	if dockerBuild.dir != "" {
-		os.RemoveAll(dockerBuild.dir)
+	bin := filepath.Join(t.TempDir(), "kelvard")
+	line := strings.Replace(m[0], "-o "+m[1], "-o "+bin, 1)
+	line = strings.ReplaceAll(line, "${VERSION}", "test")
+	cmd := exec.Command("sh", "-c", line)
+	cmd.Dir = dir
+	if out, err := cmd.CombinedOutput(); err != nil {
+		t.Fatalf("build as the Dockerfile does: %v\n%s\n%s", err, line, out)
 	}
-	os.Exit(code)
+	return bin
 }
 
 func TestDockerfile(t *testing.T) {
