@@ -9,6 +9,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/jackc/pgx/v5"
 	_ "github.com/jackc/pgx/v5/stdlib" // database/sql driver "pgx" for the comparison queries
 
 	"kelvard/jobs"
@@ -152,7 +153,8 @@ func digest(t *testing.T, st *store.Store, table string) string {
 	t.Helper()
 	var out string
 	err := st.DB(context.Background()).Raw(fmt.Sprintf(
-		`SELECT count(*) || ':' || coalesce(md5(string_agg(r::text, '|' ORDER BY r::text)), '-') FROM %q r`, table)).Scan(&out).Error
+		`SELECT count(*) || ':' || coalesce(md5(string_agg(r::text, '|' ORDER BY r::text)), '-') FROM %s r`,
+		pgx.Identifier{table}.Sanitize())).Scan(&out).Error
 	if err != nil {
 		t.Fatalf("digest %s: %v", table, err)
 	}

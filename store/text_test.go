@@ -68,7 +68,9 @@ func TestBadTextIsRefused(t *testing.T) {
 			if _, err := s.Ingest(ctx, []store.Reading{{Position: f.Position.Tag, At: at, AmbientC: &v}}, store.IngestOptions{}); err != nil {
 				t.Fatal(err)
 			}
-			s.DB(ctx).Exec("DELETE FROM readings")
+			if err := s.DB(ctx).Exec("DELETE FROM readings").Error; err != nil {
+				t.Fatal(err)
+			}
 		}
 	})
 }

@@ -135,12 +135,6 @@ func (r IngestReport) Print(w io.Writer) {
 			p.RowsPerSecond()/r.Copy.RowsPerSecond(), per(p.CPU.Client), per(p.CPU.Server), per(p.CPU.Database),
 			per(p.CPU.Total()), r.Copy.CPUPerMillion().Seconds()/p.CPUPerMillion().Seconds(), rss)
 	}
-	verdict := func(ok bool) string {
-		if ok {
-			return "met"
-		}
-		return "NOT met"
-	}
 	peak := max(r.CSV.PeakRSS, r.JSON.PeakRSS)
 	fmt.Fprintf(w, "\nrates:  CSV/COPY %.2f (target %.2f: %s); JSON/COPY %.2f (target %.2f: %s)\n",
 		r.CSVRatio(), TargetCSVRatio, verdict(r.CSVRatio() >= TargetCSVRatio),

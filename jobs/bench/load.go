@@ -221,12 +221,6 @@ func (r LoadReport) Print(w io.Writer) {
 		fmt.Fprintf(w, "error: %s\n", e)
 	}
 	worst := r.WorstRead()
-	verdict := func(ok bool) string {
-		if ok {
-			return "met"
-		}
-		return "NOT met"
-	}
 	fmt.Fprintf(w, "\nverdict: reads p99 %s ms at worst (%s), target under %s: %s; %d errors, target none: %s",
 		ms(worst.P99), worst.Name, TargetReadP99, verdict(worst.P99 < TargetReadP99), r.Overall.Errors, verdict(r.Overall.Errors == 0))
 	if r.AchievedRate < 0.95*float64(r.Rate) {

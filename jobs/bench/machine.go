@@ -55,3 +55,11 @@ func postgresVersion(ctx context.Context, db *sql.DB) (string, error) {
 	}
 	return "PostgreSQL " + v, nil
 }
+
+// verdict words whether a target was met, for the reports.
+func verdict(ok bool) string {
+	if ok {
+		return "met"
+	}
+	return "NOT met"
+}

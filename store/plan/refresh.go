@@ -27,8 +27,5 @@ func Refresh(ctx context.Context, st *store.Store, cfg Config) (store.SyncResult
 	proposals := BuildProposals(d, f, cfg, d.At)
 	res, err := st.SyncProposals(ctx, proposals, store.SyncOptions{At: d.At, RedoAfter: cfg.RedoAfter,
 		Kinds: []string{store.CauseFinding, store.CauseForecast, store.CauseRecurring}})
-	if err != nil {
-		return res, len(d.Drives), err
-	}
-	return res, len(d.Drives), nil
+	return res, len(d.Drives), err
 }
