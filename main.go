@@ -915,23 +915,17 @@ func cmdBenchLoad(ctx context.Context, args []string, getenv func(string) string
 	if err := parse(fs, args); err != nil {
 		return err
 	}
-	switch {
-	case cfg.Rate < 1 || cfg.Rate > bench.MaxLoadRate:
-		return usageError{fmt.Errorf("--rate %d: want 1 to %d requests per second", cfg.Rate, bench.MaxLoadRate)}
-	case cfg.Duration < time.Second || cfg.Duration > bench.MaxLoadDuration:
-		return usageError{fmt.Errorf("--duration %s: want 1s to %s", cfg.Duration, bench.MaxLoadDuration)}
-	case cfg.Warmup < 0 || cfg.Warmup > time.Minute:
-		return usageError{fmt.Errorf("--warmup %s: want 0 to 1m", cfg.Warmup)}
-	case cfg.Workers < 1 || cfg.MaxWorkers < cfg.Workers || cfg.MaxWorkers > bench.MaxLoadWorkers:
-		return usageError{fmt.Errorf("--workers %d, --max-workers %d: want 1 ≤ workers ≤ max workers ≤ %d", cfg.Workers, cfg.MaxWorkers, bench.MaxLoadWorkers)}
-	case cfg.Timeout <= 0 || cfg.Positions < 0 || seed == 0:
-		return usageError{errors.New("--timeout and --seed must be positive, --positions 0 or more")}
+	if cfg.Warmup < 0 || seed == 0 {
+		return usageError{errors.New("bench load: --warmup must be 0 or more and --seed positive")}
 	}
 	if cfg.Warmup == 0 {
 		cfg.Warmup = -1 // none, rather than the default
 	}
 	cfg.Seed = uint64(seed)
 	cfg.DatabaseURL, cfg.Progress = c.databaseURL, stderr
+	if err := cfg.Check(); err != nil {
+		return usageError{fmt.Errorf("bench load: %w", err)}
+	}
 	rep, err := bench.Load(ctx, cfg)
 	if err != nil {
 		return err

@@ -93,6 +93,18 @@ func (c *LoadConfig) defaults() error {
 	if c.Progress == nil {
 		c.Progress = io.Discard
 	}
+	if err := c.Check(); err != nil {
+		return err
+	}
+	if !strings.HasPrefix(c.DatabaseURL, "postgres://") && !strings.HasPrefix(c.DatabaseURL, "postgresql://") {
+		return errors.New("bench load needs a PostgreSQL database: give --database-url postgres://…")
+	}
+	return nil
+}
+
+// Check reports the first setting out of its range, for a configuration
+// whose defaults are filled in (the command line's are).
+func (c *LoadConfig) Check() error {
 	switch {
 	case c.Rate < 1 || c.Rate > MaxLoadRate:
 		return fmt.Errorf("rate %d requests/s: want 1 to %d", c.Rate, MaxLoadRate)
@@ -106,9 +118,6 @@ func (c *LoadConfig) defaults() error {
 		return fmt.Errorf("timeout %s: want a positive duration", c.Timeout)
 	case c.Positions < 0:
 		return fmt.Errorf("positions %d: want 0 (the demo fleet) or more", c.Positions)
-	}
-	if !strings.HasPrefix(c.DatabaseURL, "postgres://") && !strings.HasPrefix(c.DatabaseURL, "postgresql://") {
-		return errors.New("bench load needs a PostgreSQL database: give --database-url postgres://…")
 	}
 	return nil
 }
