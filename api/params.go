@@ -5,6 +5,8 @@ import (
 	"time"
 
 	"github.com/gin-gonic/gin"
+
+	"kelvard/store"
 )
 
 // queryTime reads an optional RFC 3339 query parameter; an empty one gives
@@ -29,14 +31,6 @@ func queryTime(c *gin.Context, name string) (time.Time, bool) {
 	return t, true
 }
 
-// Bounds of the times ParseTime accepts, in UTC: what RFC 3339 can write
-// back (years 0000 to 9999, and an offset can carry a time written in one
-// of them past either end) and PostgreSQL can read (it has no year 0).
-var (
-	minTime = time.Date(1, 1, 1, 0, 0, 0, 0, time.UTC)
-	maxTime = time.Date(9999, 12, 31, 23, 59, 59, 999999999, time.UTC)
-)
-
 // ParseTime reads an RFC 3339 time (with or without fractional seconds)
 // and returns it in UTC. A time that falls outside the years 0001 to 9999
 // in UTC is refused.
@@ -46,7 +40,7 @@ func ParseTime(s string) (time.Time, error) {
 		return time.Time{}, err
 	}
 	t = t.UTC()
-	if t.Before(minTime) || t.After(maxTime) {
+	if t.Before(store.EarliestTime) || t.After(store.LatestTime) {
 		return time.Time{}, fmt.Errorf("time %q lies outside the years 0001 to 9999 in UTC", s)
 	}
 	return t, nil

@@ -162,7 +162,7 @@ func (s *Store) AssessmentCandidates(ctx context.Context, full bool, staleBefore
 }
 
 // beforeAnyReading lies before every reading time kelvard accepts.
-var beforeAnyReading = time.Date(1, 1, 1, 0, 0, 0, 0, time.UTC)
+var beforeAnyReading = EarliestTime
 
 // LoadAssessContexts loads the contexts of a batch of drives with a fixed
 // number of queries, whatever the batch size.

@@ -54,12 +54,11 @@ func encodeReadingCursor(at time.Time) string {
 }
 
 // Bounds of a readings cursor's time (Unix microseconds): a reading's time
-// is written in RFC 3339, so it lies in the years 0001 to 9999. A cursor
-// outside them was not issued here, and its time could not be passed to
-// the database intact.
+// lies between EarliestTime and LatestTime. A cursor outside them was not
+// issued here, and its time could not be passed to the database intact.
 var (
-	minCursorMicro = time.Date(1, 1, 1, 0, 0, 0, 0, time.UTC).UnixMicro()
-	maxCursorMicro = time.Date(9999, 12, 31, 23, 59, 59, 999999000, time.UTC).UnixMicro()
+	minCursorMicro = EarliestTime.UnixMicro()
+	maxCursorMicro = LatestTime.UnixMicro()
 )
 
 func decodeReadingCursor(s string) (int64, bool, error) {

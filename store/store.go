@@ -52,6 +52,15 @@ type Store struct {
 	scanGroupRows int
 }
 
+// The times the store keeps, in UTC: what RFC 3339 can write back (years
+// 0000 to 9999, and an offset can carry a time written in one of them past
+// either end) and PostgreSQL can read (it has no year 0). Readings, ranges
+// and cursors outside them are refused where they come in.
+var (
+	EarliestTime = time.Date(1, 1, 1, 0, 0, 0, 0, time.UTC)
+	LatestTime   = time.Date(9999, 12, 31, 23, 59, 59, 999999999, time.UTC)
+)
+
 // Options tunes Open. The zero value is usable.
 type Options struct {
 	// Logger receives slow-query and error logs; nil discards them.
