@@ -205,6 +205,9 @@ func outageDuringAssessment(t *testing.T, pg *pgCluster, srv *server, c *client,
 	srv.waitReadyz(t, http.StatusOK, startTimeout)
 	run := c.waitRun(t, first.ID, 2*time.Minute)
 	t.Logf("disturbed run %d: %s %q %q", run.ID, run.Status, run.Note, run.Error)
+	if run.Status == store.JobSucceeded {
+		t.Fatalf("the assessment finished before the database stopped (%s): raise outageDrives or outagePerDrive so it runs longer on this machine", run.Note)
+	}
 	if run.Status != store.JobFailed || run.Error != "the database is unavailable" {
 		t.Errorf("run during the outage recorded as %s %q, want failed with the database unavailable", run.Status, run.Error)
 	}
