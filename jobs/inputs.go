@@ -3,7 +3,6 @@ package jobs
 import (
 	"crypto/sha256"
 	"encoding/hex"
-	"encoding/json"
 	"fmt"
 	"math"
 
@@ -136,11 +135,11 @@ func storageTempC(c *store.AssessContext) float64 {
 // change in the register or the parameters forces a full recompute.
 func paramsHash(parts ...any) string {
 	h := sha256.New()
-	enc := json.NewEncoder(h)
 	for _, p := range parts {
-		if err := enc.Encode(store.Sanitize(p)); err != nil {
+		if err := store.SafeJSONTo(h, p); err != nil {
 			fmt.Fprintf(h, "%v", p)
 		}
+		h.Write([]byte{'\n'})
 	}
 	return hex.EncodeToString(h.Sum(nil)[:16])
 }

@@ -1,11 +1,12 @@
 package store
 
 import (
-	"encoding"
-	"encoding/json"
+	"io"
 	"math"
-	"reflect"
-	"strings"
+
+	jsonv2 "github.com/go-json-experiment/json"
+	"github.com/go-json-experiment/json/jsontext"
+	jsonv1 "github.com/go-json-experiment/json/v1"
 
 	"kelvard/health"
 )
@@ -14,121 +15,34 @@ import (
 // floats become null. The models use NaN for "unknown" and +Inf for "never"
 // (a part that does not age), which encoding/json refuses; reports keep
 // those meanings as null.
+//
+// It runs the encoder of github.com/go-json-experiment/json with
+// encoding/json's behaviour (DefaultOptionsV1) and one hook for floats, so
+// a report is encoded in one pass: walking it into maps first cost a
+// quarter of an incremental assessment.
 func SafeJSON(v any) ([]byte, error) {
-	return json.Marshal(Sanitize(v))
+	return jsonv2.Marshal(v, safeJSONOptions)
 }
 
-// Sanitize returns a tree of maps, slices and scalars equal to v's JSON
-// form with every non-finite float replaced by nil. It follows json struct
-// tags (names, "-", omitempty) and embedded structs; values that marshal
-// themselves (time.Time, json.RawMessage) are kept as they are.
-func Sanitize(v any) any {
-	return sanitize(reflect.ValueOf(v))
+// SafeJSONTo writes v to w as SafeJSON does, with no newline.
+func SafeJSONTo(w io.Writer, v any) error {
+	return jsonv2.MarshalWrite(w, v, safeJSONOptions)
 }
 
-var (
-	marshalerType     = reflect.TypeFor[json.Marshaler]()
-	textMarshalerType = reflect.TypeFor[encoding.TextMarshaler]()
-)
-
-func sanitize(v reflect.Value) any {
-	if !v.IsValid() {
-		return nil
-	}
-	if v.Kind() != reflect.Pointer && v.Kind() != reflect.Interface &&
-		(v.Type().Implements(marshalerType) || v.Type().Implements(textMarshalerType)) {
-		return v.Interface()
-	}
-	switch v.Kind() {
-	case reflect.Pointer, reflect.Interface:
-		if v.IsNil() {
-			return nil
-		}
-		return sanitize(v.Elem())
-	case reflect.Float32, reflect.Float64:
-		f := v.Float()
+var safeJSONOptions = jsonv2.JoinOptions(jsonv1.DefaultOptionsV1(), jsonv2.WithMarshalers(jsonv2.JoinMarshalers(
+	jsonv2.MarshalToFunc(func(enc *jsontext.Encoder, f float64) error {
 		if math.IsNaN(f) || math.IsInf(f, 0) {
-			return nil
+			return enc.WriteToken(jsontext.Null)
 		}
-		return f
-	case reflect.Struct:
-		out := map[string]any{}
-		sanitizeStruct(v, out)
-		return out
-	case reflect.Slice:
-		if v.IsNil() {
-			return nil
+		return jsonv2.SkipFunc
+	}),
+	jsonv2.MarshalToFunc(func(enc *jsontext.Encoder, f float32) error {
+		if math.IsNaN(float64(f)) || math.IsInf(float64(f), 0) {
+			return enc.WriteToken(jsontext.Null)
 		}
-		if v.Type().Elem().Kind() == reflect.Uint8 {
-			return v.Interface() // []byte encodes as base64
-		}
-		fallthrough
-	case reflect.Array:
-		out := make([]any, v.Len())
-		for i := range out {
-			out[i] = sanitize(v.Index(i))
-		}
-		return out
-	case reflect.Map:
-		if v.IsNil() {
-			return nil
-		}
-		out := make(map[string]any, v.Len())
-		iter := v.MapRange()
-		for iter.Next() {
-			k := iter.Key()
-			var key string
-			if k.Kind() == reflect.String {
-				key = k.String()
-			} else {
-				b, _ := json.Marshal(k.Interface())
-				key = strings.Trim(string(b), `"`)
-			}
-			out[key] = sanitize(iter.Value())
-		}
-		return out
-	}
-	return v.Interface()
-}
-
-func sanitizeStruct(v reflect.Value, out map[string]any) {
-	t := v.Type()
-	for i := 0; i < t.NumField(); i++ {
-		sf := t.Field(i)
-		tag := sf.Tag.Get("json")
-		if tag == "-" {
-			continue
-		}
-		name, opts, _ := strings.Cut(tag, ",")
-		fv := v.Field(i)
-		if sf.Anonymous && name == "" {
-			ft := sf.Type
-			if ft.Kind() == reflect.Pointer {
-				if fv.IsNil() {
-					continue
-				}
-				fv, ft = fv.Elem(), ft.Elem()
-			}
-			if ft.Kind() == reflect.Struct && !ft.Implements(marshalerType) {
-				sanitizeStruct(fv, out)
-				continue
-			}
-		}
-		if !sf.IsExported() {
-			continue
-		}
-		if name == "" {
-			name = sf.Name
-		}
-		if strings.Contains(opts, "omitempty") && fv.IsZero() && fv.Kind() != reflect.Struct {
-			continue
-		}
-		if strings.Contains(opts, "omitempty") && (fv.Kind() == reflect.Slice || fv.Kind() == reflect.Map) && fv.Len() == 0 {
-			continue
-		}
-		out[name] = sanitize(fv)
-	}
-}
+		return jsonv2.SkipFunc
+	}),
+)))
 
 // finiteEvidence returns the evidence with non-finite numbers as nil, so it
 // can be stored as JSON.
