@@ -9,6 +9,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strconv"
 	"strings"
 	"time"
 
@@ -61,16 +62,25 @@ func (d dbTime) ptr() *time.Time {
 	return &t
 }
 
-// watermark is a row of drive_watermarks.
+// watermark is a row of drive_watermarks with the drive's newest reading.
 type watermark struct {
 	DriveID       int64
 	AssessedTo    *time.Time
 	RecomputeFrom *time.Time
+	Latest        *time.Time
 }
 
-// loadWatermarks reads the watermarks of a batch of drives.
+// loadWatermarks reads the watermarks of a batch of drives and each
+// drive's newest reading time. The newest reading is looked for after the
+// watermark first, which PostgreSQL prunes to the partitions from the
+// watermark on (a probe of every partition's index cost a tenth of an
+// incremental run); only a drive with nothing after its watermark, or
+// with none, is probed across all of them.
 func (s *Store) loadWatermarks(ctx context.Context, db *gorm.DB, ids []int64) ([]watermark, error) {
-	rows, err := db.WithContext(ctx).Raw("SELECT drive_id, assessed_to, recompute_from FROM drive_watermarks WHERE drive_id IN ?", uniq(ids)).Rows()
+	rows, err := db.WithContext(ctx).Raw(`SELECT d.id, w.assessed_to, w.recompute_from,
+		coalesce((SELECT max(r.at) FROM readings r WHERE r.drive_id = d.id AND r.at > w.assessed_to),
+			(SELECT max(r.at) FROM readings r WHERE r.drive_id = d.id))
+		FROM drives d LEFT JOIN drive_watermarks w ON w.drive_id = d.id WHERE d.id IN ?`, uniq(ids)).Rows()
 	if err != nil {
 		return nil, fmt.Errorf("load watermarks: %w", translate(err))
 	}
@@ -78,35 +88,12 @@ func (s *Store) loadWatermarks(ctx context.Context, db *gorm.DB, ids []int64) ([
 	var out []watermark
 	for rows.Next() {
 		var w watermark
-		var a, r dbTime
-		if err := rows.Scan(&w.DriveID, &a, &r); err != nil {
+		var a, r, l dbTime
+		if err := rows.Scan(&w.DriveID, &a, &r, &l); err != nil {
 			return nil, fmt.Errorf("scan watermark: %w", err)
 		}
-		w.AssessedTo, w.RecomputeFrom = a.ptr(), r.ptr()
+		w.AssessedTo, w.RecomputeFrom, w.Latest = a.ptr(), r.ptr(), l.ptr()
 		out = append(out, w)
-	}
-	return out, rows.Err()
-}
-
-// latestReadings returns each drive's newest reading time, one index probe
-// per drive.
-func (s *Store) latestReadings(ctx context.Context, ids []int64) (map[int64]time.Time, error) {
-	rows, err := s.db.WithContext(ctx).Raw(
-		"SELECT d.id, (SELECT max(r.at) FROM readings r WHERE r.drive_id = d.id) FROM drives d WHERE d.id IN ?", uniq(ids)).Rows()
-	if err != nil {
-		return nil, fmt.Errorf("latest readings: %w", translate(err))
-	}
-	defer rows.Close()
-	out := map[int64]time.Time{}
-	for rows.Next() {
-		var id int64
-		var t dbTime
-		if err := rows.Scan(&id, &t); err != nil {
-			return nil, fmt.Errorf("scan latest reading: %w", err)
-		}
-		if t.Valid {
-			out[id] = t.T
-		}
 	}
 	return out, rows.Err()
 }
@@ -547,42 +534,26 @@ func (s *Store) advanceWatermarks(tx *gorm.DB, rs []AssessResult) error {
 	if len(rows) == 0 {
 		return nil
 	}
-	bigint, ts := "CAST(? AS bigint)", "CAST(? AS timestamptz)"
 	same := "IS NOT DISTINCT FROM"
 	if s.dialect == SQLite {
-		ts, same = "CAST(? AS integer)", "IS"
+		same = "IS"
 	}
-	// values makes a derived table of len(rows) rows, one placeholder per
-	// cell: SELECT … UNION ALL SELECT …, which both dialects take (SQLite
-	// has no column list on a VALUES alias).
-	values := func(n int, cols ...string) string {
-		parts := make([]string, len(cols))
-		for i, c := range cols {
-			name, typ, _ := strings.Cut(c, " ")
-			parts[i] = typ + " AS " + name
-		}
-		one := "SELECT " + strings.Join(parts, ", ")
-		return strings.TrimSuffix(strings.Repeat(one+" UNION ALL ", n), " UNION ALL ")
+	cells := make([][]any, len(rows))
+	for i, r := range rows {
+		cells[i] = []any{r.id, r.to}
 	}
-	var args []any
-	for _, r := range rows {
-		args = append(args, r.id, s.timeArg(r.to))
-	}
+	v, args := s.derivedTable([]string{"drive_id", "assessed_to"}, []colType{colBigint, colTime}, cells)
 	if err := tx.Exec(`INSERT INTO drive_watermarks (drive_id, assessed_to, recompute_from)
-		SELECT v.drive_id, v.assessed_to, NULL FROM (`+values(len(rows), "drive_id "+bigint, "assessed_to "+ts)+`) AS v
+		SELECT v.drive_id, v.assessed_to, NULL FROM `+v+`
 		WHERE true ON CONFLICT (drive_id) DO UPDATE SET assessed_to = excluded.assessed_to`, args...).Error; err != nil {
 		return fmt.Errorf("advance watermarks: %w", translate(err))
 	}
-	args = args[:0]
-	for _, r := range rows {
-		var seen any
-		if r.seen != nil {
-			seen = s.timeArg(*r.seen)
-		}
-		args = append(args, r.id, seen)
+	for i, r := range rows {
+		cells[i] = []any{r.id, r.seen}
 	}
+	v, args = s.derivedTable([]string{"drive_id", "seen"}, []colType{colBigint, colTime}, cells)
 	if err := tx.Exec(`UPDATE drive_watermarks SET recompute_from = NULL
-		FROM (`+values(len(rows), "drive_id "+bigint, "seen "+ts)+`) AS v
+		FROM `+v+`
 		WHERE drive_watermarks.drive_id = v.drive_id AND drive_watermarks.recompute_from `+same+` v.seen`, args...).Error; err != nil {
 		return fmt.Errorf("clear recompute marks: %w", translate(err))
 	}
@@ -591,11 +562,11 @@ func (s *Store) advanceWatermarks(tx *gorm.DB, rs []AssessResult) error {
 	// one index probe per drive (a correlated count, which both planners
 	// run per row; a join lets PostgreSQL pick a scan of every reading).
 	var checked []row
-	args = args[:0]
+	cells = cells[:0]
 	for _, r := range rows {
 		if r.after != nil && r.after.Before(r.to) {
 			checked = append(checked, r)
-			args = append(args, r.id, s.timeArg(*r.after), s.timeArg(r.to))
+			cells = append(cells, []any{r.id, *r.after, r.to})
 		}
 	}
 	if len(checked) == 0 {
@@ -605,9 +576,10 @@ func (s *Store) advanceWatermarks(tx *gorm.DB, rs []AssessResult) error {
 		DriveID int64
 		N       int64
 	}
+	v, args = s.derivedTable([]string{"drive_id", "after_at", "to_at"}, []colType{colBigint, colTime, colTime}, cells)
 	if err := tx.Raw(`SELECT v.drive_id,
 		(SELECT count(*) FROM readings r WHERE r.drive_id = v.drive_id AND r.at > v.after_at AND r.at <= v.to_at) AS n
-		FROM (`+values(len(checked), "drive_id "+bigint, "after_at "+ts, "to_at "+ts)+`) AS v`, args...).Scan(&counts).Error; err != nil {
+		FROM `+v, args...).Scan(&counts).Error; err != nil {
 		return fmt.Errorf("count covered readings: %w", translate(err))
 	}
 	byID := map[int64]row{}
@@ -622,6 +594,90 @@ func (s *Store) advanceWatermarks(tx *gorm.DB, rs []AssessResult) error {
 		if err := tx.Exec("UPDATE drive_watermarks SET recompute_from = ? WHERE drive_id = ?", s.timeArg(*r.after), r.id).Error; err != nil {
 			return fmt.Errorf("mark drive %d: %w", r.id, translate(err))
 		}
+	}
+	return nil
+}
+
+// colType is the type of a column of derivedTable.
+type colType int
+
+const (
+	colBigint colType = iota // int64
+	colTime                  // time.Time, *time.Time (nil is NULL)
+)
+
+// derivedTable returns a derived table "(…) AS v" with the named columns
+// holding rows (one []any per row, in column order) and the arguments it
+// takes. On PostgreSQL it is an unnest of one array per column, so the
+// statement has a fixed text and as many parameters as columns whatever
+// the row count (a UNION ALL of a hundred SELECTs took longer to plan
+// than to run); SQLite, which has no arrays, gets the UNION ALL with one
+// placeholder per cell.
+func (s *Store) derivedTable(names []string, types []colType, rows [][]any) (string, []any) {
+	if s.dialect == SQLite {
+		parts := make([]string, len(names))
+		for i, n := range names {
+			parts[i] = "CAST(? AS integer) AS " + n
+		}
+		one := "SELECT " + strings.Join(parts, ", ")
+		var args []any
+		for _, r := range rows {
+			for i, c := range r {
+				if types[i] == colTime {
+					c = s.optTimeArg(c)
+				}
+				args = append(args, c)
+			}
+		}
+		return "(" + strings.TrimSuffix(strings.Repeat(one+" UNION ALL ", len(rows)), " UNION ALL ") + ") AS v", args
+	}
+	arrays := make([]string, len(names))
+	args := make([]any, len(names))
+	for i, t := range types {
+		var b strings.Builder
+		b.WriteByte('{')
+		for j, r := range rows {
+			if j > 0 {
+				b.WriteByte(',')
+			}
+			switch t {
+			case colBigint:
+				b.WriteString(strconv.FormatInt(r[i].(int64), 10))
+			case colTime:
+				if tm, ok := timeOf(r[i]); ok {
+					b.WriteString(tm.UTC().Format("2006-01-02T15:04:05.999999Z"))
+				} else {
+					b.WriteString("NULL")
+				}
+			}
+		}
+		b.WriteByte('}')
+		args[i] = b.String()
+		arrays[i] = "CAST(? AS bigint[])"
+		if t == colTime {
+			arrays[i] = "CAST(? AS timestamptz[])"
+		}
+	}
+	return "unnest(" + strings.Join(arrays, ", ") + ") AS v(" + strings.Join(names, ", ") + ")", args
+}
+
+// timeOf reads a time.Time or a non-nil *time.Time.
+func timeOf(v any) (time.Time, bool) {
+	switch t := v.(type) {
+	case time.Time:
+		return t, true
+	case *time.Time:
+		if t != nil {
+			return *t, true
+		}
+	}
+	return time.Time{}, false
+}
+
+// optTimeArg is timeArg for a time.Time or *time.Time (nil stays nil).
+func (s *Store) optTimeArg(v any) any {
+	if t, ok := timeOf(v); ok {
+		return s.timeArg(t)
 	}
 	return nil
 }

@@ -234,10 +234,6 @@ func (s *Store) LoadAssessContexts(ctx context.Context, ids []int64, eventsFrom 
 	if err := db.Where("drive_id IN ? AND at >= ?", ids, eventsFrom).Order("at").Find(&events).Error; err != nil {
 		return nil, fmt.Errorf("load events: %w", translate(err))
 	}
-	latest, err := s.latestReadings(ctx, ids)
-	if err != nil {
-		return nil, err
-	}
 
 	posByID := map[int64]Position{}
 	for _, p := range positions {
@@ -253,9 +249,6 @@ func (s *Store) LoadAssessContexts(ctx context.Context, ids []int64, eventsFrom 
 		for _, in := range c.Installations {
 			p := posByID[in.PositionID]
 			c.Positions[p.ID] = PositionContext{Position: p, Area: areas[p.AreaID], Site: sites[p.SiteID]}
-		}
-		if t, ok := latest[c.Drive.ID]; ok {
-			c.LatestReadingAt = &t
 		}
 	}
 	for i := range comps {
@@ -279,7 +272,7 @@ func (s *Store) LoadAssessContexts(ctx context.Context, ids []int64, eventsFrom 
 	}
 	for _, m := range marks {
 		c := byDrive[m.DriveID]
-		c.AssessedTo, c.RecomputeFrom = m.AssessedTo, m.RecomputeFrom
+		c.AssessedTo, c.RecomputeFrom, c.LatestReadingAt = m.AssessedTo, m.RecomputeFrom, m.Latest
 	}
 	for _, f := range findings {
 		byDrive[f.DriveID].Findings = append(byDrive[f.DriveID].Findings, f)
@@ -359,7 +352,7 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 		var states []DriveState
 		var rows []Assessment
 		var days []AssessmentDay
-		seenAt := map[time.Time][]int64{}
+		marks := map[time.Time]*findingMarks{}
 		for i := range results {
 			r := &results[i]
 			at := time.Unix(r.Assessment.At, 0).UTC()
@@ -397,12 +390,16 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 				f.Evidence = finiteEvidence(f.Evidence)
 				cur[j] = f
 			}
-			opened, seen, err := reconcileFindings(tx, FindingUpdate{DriveID: r.DriveID, SiteID: r.SiteID, AreaID: r.AreaID,
-				PositionID: r.PositionID, At: at, Current: cur, Evaluated: r.Assessment.Evaluated}, r.Existing, opts.ResolveAfter)
+			m := marks[at]
+			if m == nil {
+				m = &findingMarks{}
+				marks[at] = m
+			}
+			opened, err := reconcileFindings(tx, FindingUpdate{DriveID: r.DriveID, SiteID: r.SiteID, AreaID: r.AreaID,
+				PositionID: r.PositionID, At: at, Current: cur, Evaluated: r.Assessment.Evaluated}, r.Existing, opts.ResolveAfter, m)
 			if err != nil {
 				return err
 			}
-			seenAt[at] = append(seenAt[at], seen...)
 			if opts.Notify {
 				for _, f := range opened {
 					if err := queueNotification(tx, f, at); err != nil {
@@ -411,11 +408,9 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 				}
 			}
 		}
-		for at, ids := range seenAt {
-			for chunk := range slices.Chunk(ids, 500) {
-				if err := tx.Model(&Finding{}).Where("id IN ?", chunk).Update("last_seen_at", at).Error; err != nil {
-					return fmt.Errorf("refresh findings: %w", translate(err))
-				}
+		for at, m := range marks {
+			if err := m.write(tx, at); err != nil {
+				return err
 			}
 		}
 		if err := s.advanceWatermarks(tx, results); err != nil {

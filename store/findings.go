@@ -248,15 +248,15 @@ type FindingUpdate struct {
 //
 // existing holds the drive's unresolved findings. It returns the findings
 // opened as critical, for notification, and the ids of findings whose only
-// change is the last-seen time, which the caller refreshes for a whole
-// batch in one statement.
-func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolveAfter time.Duration) ([]Finding, []int64, error) {
+// change is the last-seen time, newly cleared or resolved, which the
+// caller writes for a whole batch in one statement each (see
+// findingMarks.write).
+func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolveAfter time.Duration, marks *findingMarks) ([]Finding, error) {
 	byRule := map[string]*Finding{}
 	for i := range existing {
 		byRule[existing[i].Rule] = &existing[i]
 	}
 	var opened []Finding
-	var seen []int64
 	for _, h := range u.Current {
 		if f, ok := byRule[h.Rule]; ok {
 			delete(byRule, h.Rule)
@@ -272,13 +272,12 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 			f.SiteID, f.AreaID, f.PositionID, f.ClearedAt = u.SiteID, u.AreaID, u.PositionID, nil
 			f.LastSeenAt = u.At
 			if !changed {
-				// Only the last-seen time moved: the caller refreshes
-				// these in one statement per batch.
-				seen = append(seen, f.ID)
+				// Only the last-seen time moved.
+				marks.seen = append(marks.seen, f.ID)
 				continue
 			}
 			if err := tx.Save(f).Error; err != nil {
-				return nil, nil, fmt.Errorf("update finding %d: %w", f.ID, translate(err))
+				return nil, fmt.Errorf("update finding %d: %w", f.ID, translate(err))
 			}
 			continue
 		}
@@ -289,7 +288,7 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 			f.Evidence = []health.Evidence{}
 		}
 		if err := tx.Create(&f).Error; err != nil {
-			return nil, nil, fmt.Errorf("open finding %s for drive %d: %w", h.Rule, u.DriveID, translate(err))
+			return nil, fmt.Errorf("open finding %s for drive %d: %w", h.Rule, u.DriveID, translate(err))
 		}
 		if f.Severity == health.SeverityCritical {
 			opened = append(opened, f)
@@ -299,17 +298,49 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 		if !slices.Contains(u.Evaluated, rule) {
 			continue
 		}
-		if f.ClearedAt == nil {
-			f.ClearedAt = &u.At
+		switch {
+		case f.ClearedAt != nil && u.At.Sub(*f.ClearedAt) >= resolveAfter:
+			marks.resolved = append(marks.resolved, f.ID)
+		case f.ClearedAt == nil && resolveAfter <= 0:
+			marks.resolved = append(marks.resolved, f.ID)
+			marks.cleared = append(marks.cleared, f.ID)
+		case f.ClearedAt == nil:
+			marks.cleared = append(marks.cleared, f.ID)
 		}
-		if u.At.Sub(*f.ClearedAt) >= resolveAfter {
-			f.Status, f.ResolvedAt, f.StatusReason = FindingResolved, &u.At, "condition cleared"
-		}
-		if err := tx.Select("cleared_at", "status", "resolved_at", "status_reason", "updated_at").Save(f).Error; err != nil {
-			return nil, nil, fmt.Errorf("clear finding %d: %w", f.ID, translate(err))
+		// Cleared before and still waiting out resolveAfter: nothing
+		// changes.
+	}
+	return opened, nil
+}
+
+// findingMarks are the findings of a batch whose change is one of a few
+// kinds, written by write in a statement or two each (a statement per
+// finding cost a round trip each).
+type findingMarks struct {
+	seen     []int64 // held again: last_seen_at moves
+	cleared  []int64 // no longer held: cleared_at is set
+	resolved []int64 // cleared for long enough: resolved
+}
+
+// write applies the marks as of at.
+func (m *findingMarks) write(tx *gorm.DB, at time.Time) error {
+	for chunk := range slices.Chunk(m.seen, 500) {
+		if err := tx.Model(&Finding{}).Where("id IN ?", chunk).Update("last_seen_at", at).Error; err != nil {
+			return fmt.Errorf("refresh findings: %w", translate(err))
 		}
 	}
-	return opened, seen, nil
+	for chunk := range slices.Chunk(m.cleared, 500) {
+		if err := tx.Model(&Finding{}).Where("id IN ?", chunk).Update("cleared_at", at).Error; err != nil {
+			return fmt.Errorf("clear findings: %w", translate(err))
+		}
+	}
+	for chunk := range slices.Chunk(m.resolved, 500) {
+		if err := tx.Model(&Finding{}).Where("id IN ?", chunk).Updates(map[string]any{"status": FindingResolved,
+			"resolved_at": at, "status_reason": "condition cleared"}).Error; err != nil {
+			return fmt.Errorf("resolve findings: %w", translate(err))
+		}
+	}
+	return nil
 }
 
 func ptrVal(p *int64) []int64 {
