@@ -1,5 +1,7 @@
 package health
 
+import "math"
+
 // Sample is one logged reading as the models see it. At is the end of the
 // interval the reading describes, in Unix seconds (UTC). Any measurement that
 // was not logged is NaN; callers test with math.IsNaN. Samples passed to a
@@ -16,6 +18,17 @@ type Sample struct {
 	BusRippleV    float64 // DC-bus ripple, peak to peak
 	CapacitanceUF float64 // capacitance the drive reports, when it does
 	ESRMilliohm   float64 // equivalent series resistance the drive reports
+}
+
+// LedgerSample returns s with only the fields the life ledgers read
+// (AccumulateCapacitor, AccumulateFan and the cabinet air estimate they
+// use): the time, internal air, ambient, heatsink, current and frequency.
+// The others, which only the window checks read, are NaN. A full
+// recompute may read readings older than the window this way.
+func LedgerSample(s Sample) Sample {
+	n := math.NaN()
+	s.PeakCurrentA, s.BusV, s.BusRippleV, s.CapacitanceUF, s.ESRMilliohm = n, n, n, n, n
+	return s
 }
 
 // Running reports whether the drive was running during the sample: output

@@ -28,7 +28,8 @@ type AssessConfig struct {
 	BatchSize int
 	// Workers is how many batches run at once (default 2).
 	Workers int
-	// WindowDays is the trailing window of the window checks (default 90).
+	// WindowDays is the trailing window of the window checks (default
+	// DefaultWindowDays).
 	WindowDays int
 	// TrendEvery is how often the window checks run for a drive that is
 	// not recomputed (default 24 h): they cost a window of readings, the
@@ -48,6 +49,9 @@ type AssessConfig struct {
 	Log *slog.Logger
 }
 
+// DefaultWindowDays is the default trailing window of the window checks.
+const DefaultWindowDays = 90
+
 func (c *AssessConfig) defaults() {
 	if c.Params == nil {
 		p := health.DefaultDriveParams()
@@ -60,7 +64,7 @@ func (c *AssessConfig) defaults() {
 		c.Workers = 2
 	}
 	if c.WindowDays <= 0 {
-		c.WindowDays = 90
+		c.WindowDays = DefaultWindowDays
 	}
 	if c.TrendEvery <= 0 {
 		c.TrendEvery = 24 * time.Hour
@@ -218,7 +222,8 @@ func (a *Assessor) assessBatch(ctx context.Context, at time.Time, ids []int64, f
 		if pl.scan {
 			f := store.ScanFrom{DriveID: c.Drive.ID, After: pl.scanAfter}
 			if pl.full {
-				f.Whole = true
+				// Older readings feed only the life ledgers.
+				f.Whole, f.NarrowBefore = true, windowFrom
 				if c.State != nil {
 					// The last pass's count says how long it is.
 					f.Expect = max(c.State.CapacitorState.Samples, c.State.FanState.Samples)

@@ -7,6 +7,7 @@ import (
 	"encoding/binary"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"slices"
 	"strconv"
@@ -111,6 +112,10 @@ type ScanFrom struct {
 	// only choose how PostgreSQL reads the span (see scanReadingsPG).
 	Whole  bool
 	Expect int64
+	// NarrowBefore, when set, lets the scan leave the fields only the
+	// window checks read NaN for readings before it, as
+	// health.LedgerSample does; the scan may also return them whole.
+	NarrowBefore time.Time
 }
 
 // ScanReadings streams the readings of several drives, each after its own
@@ -128,8 +133,36 @@ func (s *Store) ScanReadings(ctx context.Context, from []ScanFrom, fn func(drive
 	return s.scanReadingsSQLite(ctx, from, fn)
 }
 
-const readingColumns = "r.drive_id, r.position_id, r.at, r.internal_air_c, r.ambient_c, r.heatsink_c, r.current_a, r.peak_current_a, " +
-	"r.frequency_hz, r.bus_v, r.bus_ripple_v, r.capacitance_uf, r.esr_milliohm"
+// readingFields are the columns ScanReadings reads, in decodeReadingRow's
+// order; windowOnly marks those only the window checks read, which
+// health.LedgerSample drops.
+var readingFields = [...]struct {
+	col        string
+	windowOnly bool
+}{
+	{"drive_id", false}, {"position_id", false}, {"at", false},
+	{"internal_air_c", false}, {"ambient_c", false}, {"heatsink_c", false}, {"current_a", false},
+	{"peak_current_a", true}, {"frequency_hz", false}, {"bus_v", true}, {"bus_ripple_v", true},
+	{"capacitance_uf", true}, {"esr_milliohm", true},
+}
+
+// readingSelect is the select list of readingFields over readings r. With
+// narrowBefore (an SQL expression) set, the window-only columns read NULL
+// for readings before it: PostgreSQL's cost of sending a row is mostly per
+// value, and a full recompute needs them only for the trailing window.
+func readingSelect(narrowBefore string) string {
+	cols := make([]string, len(readingFields))
+	for i, f := range readingFields {
+		cols[i] = "r." + f.col
+		if f.windowOnly && narrowBefore != "" {
+			cols[i] = "CASE WHEN r.at >= " + narrowBefore + " THEN r." + f.col + " END"
+		}
+	}
+	return strings.Join(cols, ", ")
+}
+
+// readingColumns is the select list of every reading field.
+var readingColumns = readingSelect("")
 
 // The physical read takes whole histories in groups of at most
 // physicalGroupRows readings (about 40 MB held at once) and
@@ -303,8 +336,18 @@ func scanPhysical(ctx context.Context, tx pgx.Tx, spans []ScanFrom, limit int, f
 		ids[i], index[f.DriveID] = f.DriveID, i
 		lo, hi = minTime(lo, f.After.UTC()), maxTime(hi, spanEnd(f))
 	}
-	rows, err := tx.Query(ctx, "SELECT "+readingColumns+" FROM readings r WHERE r.drive_id = ANY($1) AND r.at > $2 AND r.at < $3",
-		ids, lo, hi)
+	// Narrow only as far as every span allows.
+	narrow := spans[0].NarrowBefore
+	for _, f := range spans {
+		if f.NarrowBefore.Before(narrow) {
+			narrow = f.NarrowBefore
+		}
+	}
+	sel, args := readingColumns, []any{ids, lo, hi}
+	if !narrow.IsZero() {
+		sel, args = readingSelect("$4"), append(args, narrow.UTC())
+	}
+	rows, err := tx.Query(ctx, "SELECT "+sel+" FROM readings r WHERE r.drive_id = ANY($1) AND r.at > $2 AND r.at < $3", args...)
 	if err != nil {
 		return fmt.Errorf("scan readings: %w", translate(err))
 	}
@@ -680,4 +723,37 @@ func (s *Store) optTimeArg(v any) any {
 		return s.timeArg(t)
 	}
 	return nil
+}
+
+// CopyReadings writes every reading's assessed columns (those ScanReadings
+// returns, narrowed before narrowBefore as ScanFrom.NarrowBefore allows) to
+// w in PostgreSQL's binary COPY format: the least work there is of reading
+// them out of the server, which `kelvard bench assess` measures as the
+// floor under a full assessment. It returns the rows copied and needs
+// PostgreSQL.
+func (s *Store) CopyReadings(ctx context.Context, w io.Writer, narrowBefore time.Time) (int64, error) {
+	if s.dialect != Postgres {
+		return 0, errors.New("copy readings: needs PostgreSQL")
+	}
+	conn, err := s.sqlDB.Conn(ctx)
+	if err != nil {
+		return 0, fmt.Errorf("copy readings: %w", translate(err))
+	}
+	defer conn.Close()
+	sel := readingColumns
+	if !narrowBefore.IsZero() {
+		// COPY takes no parameters; a formatted time is safe to inline.
+		sel = readingSelect("'" + narrowBefore.UTC().Format("2006-01-02T15:04:05.999999Z") + "'::timestamptz")
+	}
+	var n int64
+	err = conn.Raw(func(dc any) error {
+		tag, err := dc.(*stdlib.Conn).Conn().PgConn().CopyTo(ctx, w,
+			"COPY (SELECT "+sel+" FROM readings r) TO STDOUT (FORMAT binary)")
+		n = tag.RowsAffected()
+		return err
+	})
+	if err != nil {
+		return 0, fmt.Errorf("copy readings: %w", translate(err))
+	}
+	return n, nil
 }

@@ -127,3 +127,65 @@ func TestScanReadingsWays(t *testing.T) {
 		check("probed and outgrown together", scanAll(t, s, mixed))
 	})
 }
+
+// TestScanNarrowsBefore: with NarrowBefore set, readings before it carry at
+// least the fields health.LedgerSample keeps, readings from it on every
+// field; on PostgreSQL a whole-history read does drop the others.
+func TestScanNarrowsBefore(t *testing.T) {
+	t.Parallel()
+	forEachStore(t, func(t *testing.T, s *store.Store) {
+		ctx := context.Background()
+		f := storetest.Build(t, s, "narrow")
+		base := time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC)
+		var rows []store.Reading
+		want := map[int64]health.Sample{}
+		for h := 1; h <= 48; h++ {
+			v := func(k float64) *float64 { x := k + float64(h)/8; return &x }
+			r := store.Reading{PositionID: f.Position.ID, At: base.Add(time.Duration(h) * time.Hour),
+				InternalAirC: v(30), AmbientC: v(20), HeatsinkC: v(50), CurrentA: v(10), PeakCurrentA: v(14),
+				FrequencyHz: v(45), BusV: v(560), BusRippleV: v(8), CapacitanceUF: v(4700), ESRMilliohm: v(20)}
+			rows = append(rows, r)
+			want[r.At.Unix()] = health.Sample{At: r.At.Unix(), InternalAirC: *r.InternalAirC, AmbientC: *r.AmbientC,
+				HeatsinkC: *r.HeatsinkC, CurrentA: *r.CurrentA, PeakCurrentA: *r.PeakCurrentA, FrequencyHz: *r.FrequencyHz,
+				BusV: *r.BusV, BusRippleV: *r.BusRippleV, CapacitanceUF: *r.CapacitanceUF, ESRMilliohm: *r.ESRMilliohm}
+		}
+		if _, err := s.Ingest(ctx, rows, store.IngestOptions{}); err != nil {
+			t.Fatal(err)
+		}
+		narrowBefore := base.Add(24*time.Hour + 30*time.Minute)
+		for _, whole := range []bool{false, true} {
+			var got []health.Sample
+			err := s.ScanReadings(ctx, []store.ScanFrom{{DriveID: f.Drive.ID, After: base, Whole: whole, Expect: 48,
+				NarrowBefore: narrowBefore}}, func(_, _ int64, _ time.Time, smp health.Sample) error {
+				got = append(got, smp)
+				return nil
+			})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(got) != 48 {
+				t.Fatalf("whole %v: %d readings, want 48", whole, len(got))
+			}
+			// Printed, NaN equals NaN; %v prints floats exactly.
+			eq := func(a, b health.Sample) bool { return fmt.Sprint(a) == fmt.Sprint(b) }
+			narrowed := 0
+			for _, g := range got {
+				w := want[g.At]
+				same := eq(g, w)
+				if g.At < narrowBefore.Unix() && !same {
+					if !eq(g, health.LedgerSample(w)) {
+						t.Errorf("whole %v, reading at %d: %+v, want %+v or its ledger fields", whole, g.At, g, w)
+					}
+					narrowed++
+					continue
+				}
+				if !same {
+					t.Errorf("whole %v, reading at %d: %+v, want %+v", whole, g.At, g, w)
+				}
+			}
+			if whole && s.Dialect() == store.Postgres && narrowed != 24 {
+				t.Errorf("whole-history read on PostgreSQL narrowed %d readings, want 24", narrowed)
+			}
+		}
+	})
+}

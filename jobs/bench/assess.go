@@ -44,6 +44,7 @@ type AssessReport struct {
 	Readings         int
 	Full             time.Duration
 	Baseline         time.Duration
+	Floor            time.Duration
 	NewReadings      int
 	Incremental      time.Duration
 	ScrapeDrives     int
@@ -55,6 +56,10 @@ type AssessReport struct {
 // (target at most 1.0).
 func (r AssessReport) FullRatio() float64 { return r.Full.Seconds() / r.Baseline.Seconds() }
 
+// FloorRatio is the full assessment's time over the floor's: a binary COPY
+// of the same rows and columns out of PostgreSQL, with nothing computed.
+func (r AssessReport) FloorRatio() float64 { return r.Full.Seconds() / r.Floor.Seconds() }
+
 // IncrementalRatio is the incremental run's time over the full one's
 // (target at most 0.05).
 func (r AssessReport) IncrementalRatio() float64 { return r.Incremental.Seconds() / r.Full.Seconds() }
@@ -65,6 +70,7 @@ func (r AssessReport) Print(w io.Writer) {
 	fmt.Fprintf(w, "fleet: %d drives × %d hourly readings = %d readings (PostgreSQL)\n", r.Drives, r.Readings/max(r.Drives, 1), r.Readings)
 	fmt.Fprintf(w, "full assessment     %10s\n", r.Full.Round(time.Millisecond))
 	fmt.Fprintf(w, "baseline SQL pass   %10s   ratio full/baseline %.2f (target ≤ 1.0)\n", r.Baseline.Round(time.Millisecond), r.FullRatio())
+	fmt.Fprintf(w, "floor: COPY out     %10s   ratio full/floor %.2f (the rows and columns the full run reads, nothing computed)\n", r.Floor.Round(time.Millisecond), r.FloorRatio())
 	fmt.Fprintf(w, "incremental (+%d)   %10s   ratio incremental/full %.3f (target ≤ 0.05)\n", r.NewReadings, r.Incremental.Round(time.Millisecond), r.IncrementalRatio())
 	fmt.Fprintf(w, "/metrics scrape     %10s   with %d drives registered, %d bytes (target < 250 ms)\n", r.Scrape.Round(time.Millisecond), r.ScrapeDrives, r.ScrapeSeriesSize)
 }
@@ -182,6 +188,20 @@ func Assess(ctx context.Context, cfg AssessConfig) (AssessReport, error) {
 	}
 	slices.Sort(times)
 	rep.Baseline = times[1] // the median of three
+
+	// The floor: the same rows and columns copied out (the window-only
+	// fields of older readings as NULL, as the full run reads them),
+	// nothing computed.
+	times = times[:0]
+	for range 3 {
+		start = time.Now()
+		if _, err := st.CopyReadings(ctx, io.Discard, clock.AddDate(0, 0, -jobs.DefaultWindowDays)); err != nil {
+			return rep, err
+		}
+		times = append(times, time.Since(start))
+	}
+	slices.Sort(times)
+	rep.Floor = times[1]
 
 	say("incremental assessment after %d new readings per drive", newPer)
 	tl2 := tl
