@@ -39,13 +39,17 @@ type AssessConfig struct {
 
 // AssessReport holds the figures of one run.
 type AssessReport struct {
-	Machine          Machine
-	Drives           int
-	Readings         int
-	Full             time.Duration
-	Baseline         time.Duration
-	Floor            time.Duration
-	NewReadings      int
+	Machine     Machine
+	Drives      int
+	Readings    int
+	Full        time.Duration
+	Baseline    time.Duration
+	Floor       time.Duration
+	NewReadings int
+	// PartialDrives got the same share of new readings again, alone, and
+	// Partial is the run that took them in.
+	PartialDrives    int
+	Partial          time.Duration
 	Incremental      time.Duration
 	ScrapeDrives     int
 	Scrape           time.Duration
@@ -72,6 +76,8 @@ func (r AssessReport) Print(w io.Writer) {
 	fmt.Fprintf(w, "baseline SQL pass   %10s   ratio full/baseline %.2f (target ≤ 1.0)\n", r.Baseline.Round(time.Millisecond), r.FullRatio())
 	fmt.Fprintf(w, "floor: COPY out     %10s   ratio full/floor %.2f (the rows and columns the full run reads, nothing computed)\n", r.Floor.Round(time.Millisecond), r.FloorRatio())
 	fmt.Fprintf(w, "incremental (+%d)   %10s   ratio incremental/full %.3f (target ≤ 0.05)\n", r.NewReadings, r.Incremental.Round(time.Millisecond), r.IncrementalRatio())
+	fmt.Fprintf(w, "incremental, %d drives %8s   ratio to the every-drive run %.3f (a run costs in proportion to the drives with new readings)\n",
+		r.PartialDrives, r.Partial.Round(time.Millisecond), r.Partial.Seconds()/r.Incremental.Seconds())
 	fmt.Fprintf(w, "/metrics scrape     %10s   with %d drives registered, %d bytes (target < 250 ms)\n", r.Scrape.Round(time.Millisecond), r.ScrapeDrives, r.ScrapeSeriesSize)
 }
 
@@ -140,9 +146,10 @@ func Assess(ctx context.Context, cfg AssessConfig) (AssessReport, error) {
 	}
 
 	// The fleet and its readings: ReadingsPerDrive hourly readings per
-	// drive, ending a little before now so the new share fits after them.
+	// drive, ending a little before now so the new share fits after them
+	// twice (every drive, then a tenth of them).
 	newPer := max(1, int(float64(cfg.ReadingsPerDrive)*cfg.NewFraction))
-	tl := newTimeline(now.Add(-time.Duration(newPer+1)*time.Hour), cfg.Drives*cfg.ReadingsPerDrive, cfg.Drives)
+	tl := newTimeline(now.Add(-time.Duration(2*newPer+1)*time.Hour), cfg.Drives*cfg.ReadingsPerDrive, cfg.Drives)
 	if err := st.EnsureReadingPartitions(ctx, tl.start, now); err != nil {
 		return rep, err
 	}
@@ -216,6 +223,30 @@ func Assess(ctx context.Context, cfg AssessConfig) (AssessReport, error) {
 		return rep, err
 	}
 	rep.Incremental = time.Since(start)
+
+	// The same share again on a tenth of the drives: the run should cost
+	// about a tenth, as it works per drive with new readings.
+	rep.PartialDrives = max(1, cfg.Drives/10)
+	say("incremental assessment after %d new readings on %d drives", newPer, rep.PartialDrives)
+	var partial []store.Reading
+	for h := tl2.hours; h < tl2.hours+newPer; h++ {
+		for p := range rep.PartialDrives {
+			partial = append(partial, tl2.reading(h*cfg.Drives+p, f.tags))
+		}
+	}
+	if _, err := st.Ingest(ctx, partial, store.IngestOptions{}); err != nil {
+		return rep, fmt.Errorf("load readings: %w", err)
+	}
+	clock = now.Add(2 * time.Minute)
+	start = time.Now()
+	sum, err := as.Assess(ctx, jobs.AssessOptions{})
+	if err != nil {
+		return rep, err
+	}
+	rep.Partial = time.Since(start)
+	if sum.Drives != int64(rep.PartialDrives) {
+		return rep, fmt.Errorf("the run after new readings on %d drives assessed %d", rep.PartialDrives, sum.Drives)
+	}
 
 	if cfg.ScrapeDrives > cfg.Drives {
 		say("registering %d more drives for the /metrics scrape", cfg.ScrapeDrives-cfg.Drives)
