@@ -133,4 +133,61 @@ func TestLedgerCodecCarriesEveryField(t *testing.T) {
 	if !reflect.DeepEqual(back, l) {
 		t.Errorf("round trip lost a field:\n got %+v\nwant %+v", back, l)
 	}
+	head, days, err := l.MarshalSplit()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var split LifeLedger
+	if err := split.UnmarshalSplit(head, days); err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(split, l) {
+		t.Errorf("split round trip lost a field:\n got %+v\nwant %+v", split, l)
+	}
+}
+
+// TestLedgerCodecSplit: the two parts MarshalSplit writes decode to the
+// ledger; the head alone carries no closed days and changes with the open
+// day while the days part does not; a ledger stored whole before the split
+// still decodes (days nil); and days both in the head and apart, or a
+// corrupt days part, are refused.
+func TestLedgerCodecSplit(t *testing.T) {
+	l := LifeLedger{HasLast: true, LastAt: 9 * 86400, Damage: 0.1, Samples: 40,
+		Days: []DayDamage{{Day: 3, Damage: 0.01, Seconds: 86400, AgingS: 86400, TempS: 1e6},
+			{Day: 5, Damage: 0.02, Seconds: 7200, AgingS: 3600, TempS: 2e5}},
+		HasCurrent: true, Current: DayDamage{Day: 9, Damage: 0.001, Seconds: 3600, AgingS: 1800, TempS: 5e4}}
+	head, days, err := l.MarshalSplit()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var back LifeLedger
+	if err := back.UnmarshalSplit(head, days); err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(back, l) {
+		t.Fatalf("split round trip:\n got %+v\nwant %+v", back, l)
+	}
+	var headOnly LifeLedger
+	if err := headOnly.UnmarshalBinary(head); err != nil || len(headOnly.Days) != 0 || headOnly.Current != l.Current {
+		t.Errorf("head alone: %+v, %v", headOnly, err)
+	}
+	later := l
+	later.Current.Damage, later.Samples = 0.002, 41
+	head2, days2, _ := later.MarshalSplit()
+	if bytes.Equal(head, head2) || !bytes.Equal(days, days2) {
+		t.Error("a reading within the open day changed the days part, or left the head as it was")
+	}
+	whole, _ := l.MarshalBinary()
+	var old LifeLedger
+	if err := old.UnmarshalSplit(whole, nil); err != nil || !reflect.DeepEqual(old, l) {
+		t.Errorf("a ledger stored whole: %+v, %v", old, err)
+	}
+	if err := old.UnmarshalSplit(whole, days); err == nil {
+		t.Error("closed days both in the head and apart decoded")
+	}
+	for _, bad := range [][]byte{{}, {2, 0}, days[:len(days)-3], append(days[:len(days):len(days)], 0)} {
+		if err := old.UnmarshalSplit(head, bad); err == nil {
+			t.Errorf("corrupt days %x… decoded", bad[:min(len(bad), 4)])
+		}
+	}
 }
