@@ -1,7 +1,9 @@
 package store
 
 import (
+	"bytes"
 	"context"
+	"database/sql/driver"
 	"encoding/json"
 	"fmt"
 	"math"
@@ -24,10 +26,18 @@ type DriveState struct {
 	CapacitorState       health.CapacitorState `gorm:"-"`
 	FanState             health.FanState       `gorm:"-"`
 	// CapacitorLedger and FanLedger are the states as stored, in the
-	// ledger's compact binary form (health.LifeLedger.MarshalBinary).
-	CapacitorLedger []byte                          `gorm:"column:capacitor_state"`
-	FanLedger       []byte                          `gorm:"column:fan_state"`
-	Measured        *health.CapacitorMeasuredReport `gorm:"serializer:json"`
+	// ledger's compact binary form without the closed days
+	// (health.LifeLedger.MarshalSplit), or with them where the days
+	// column is NULL (a ledger stored before they were split).
+	CapacitorLedger []byte `gorm:"column:capacitor_state"`
+	FanLedger       []byte `gorm:"column:fan_state"`
+	// CapacitorDays and FanDays are the ledgers' closed days as stored.
+	// SaveAssessments writes a ledger's closed days only when they differ
+	// from these, so carry them over from the state loaded: the days
+	// change once a day, the rest of a ledger with every reading.
+	CapacitorDays NullBytes                       `gorm:"column:capacitor_days"`
+	FanDays       NullBytes                       `gorm:"column:fan_days"`
+	Measured      *health.CapacitorMeasuredReport `gorm:"serializer:json"`
 	// ParamsHash fingerprints every input the ledgers depend on; a change
 	// forces a full recompute of the drive.
 	ParamsHash string
@@ -44,6 +54,90 @@ type DriveState struct {
 
 // TableName names the table.
 func (DriveState) TableName() string { return "drive_state" }
+
+// AfterFind decodes the ledgers of a state read from the store.
+func (st *DriveState) AfterFind(*gorm.DB) error {
+	if err := st.CapacitorState.UnmarshalSplit(st.CapacitorLedger, st.CapacitorDays); err != nil {
+		return fmt.Errorf("drive %d capacitor ledger: %w", st.DriveID, err)
+	}
+	if err := st.FanState.UnmarshalSplit(st.FanLedger, st.FanDays); err != nil {
+		return fmt.Errorf("drive %d fan ledger: %w", st.DriveID, err)
+	}
+	return nil
+}
+
+// encodeLedgers sets the stored forms of the state's ledgers for a save. A
+// ledger's closed days that equal those stored are set to nil, which the
+// upsert (stateUpsert) takes for "leave the column as it is".
+func (st *DriveState) encodeLedgers() error {
+	var err error
+	var days []byte
+	if st.CapacitorLedger, days, err = st.CapacitorState.MarshalSplit(); err != nil {
+		return err
+	}
+	st.CapacitorDays = changedOrNil(days, st.CapacitorDays)
+	if st.FanLedger, days, err = st.FanState.MarshalSplit(); err != nil {
+		return err
+	}
+	st.FanDays = changedOrNil(days, st.FanDays)
+	return nil
+}
+
+// NullBytes is a byte slice stored as NULL when nil (the SQLite driver
+// stores a nil []byte as an empty blob).
+type NullBytes []byte
+
+// Value implements driver.Valuer.
+func (b NullBytes) Value() (driver.Value, error) {
+	if b == nil {
+		return nil, nil
+	}
+	return []byte(b), nil
+}
+
+// Scan implements sql.Scanner.
+func (b *NullBytes) Scan(src any) error {
+	switch v := src.(type) {
+	case nil:
+		*b = nil
+	case []byte:
+		*b = bytes.Clone(v)
+	case string:
+		*b = []byte(v)
+	default:
+		return fmt.Errorf("scan %T into bytes", src)
+	}
+	return nil
+}
+
+// changedOrNil returns days, or nil when they equal the stored ones.
+func changedOrNil(days, stored []byte) NullBytes {
+	if stored != nil && bytes.Equal(days, stored) {
+		return nil
+	}
+	return days
+}
+
+// stateUpsert writes states over existing rows, keeping the stored closed
+// days where a state carries none (unchanged, see encodeLedgers).
+func stateUpsert(tx *gorm.DB) (clause.OnConflict, error) {
+	stmt := &gorm.Statement{DB: tx}
+	if err := stmt.Parse(&DriveState{}); err != nil {
+		return clause.OnConflict{}, fmt.Errorf("drive state schema: %w", err)
+	}
+	var set []string
+	for _, name := range stmt.Schema.DBNames {
+		if name != "drive_id" && name != "capacitor_days" && name != "fan_days" {
+			set = append(set, name)
+		}
+	}
+	up := clause.AssignmentColumns(set)
+	for _, name := range []string{"capacitor_days", "fan_days"} {
+		up = append(up, clause.Assignment{Column: clause.Column{Name: name},
+			Value: gorm.Expr("COALESCE(excluded." + name + ", drive_state." + name + ")")})
+	}
+	return clause.OnConflict{Columns: []clause.Column{{Name: "drive_id"}}, DoUpdates: up}, nil
+}
 
 // Assessment is the latest health of one drive, with its contract fields
 // in columns (for lists, filters and metrics) and the whole report.
@@ -261,14 +355,7 @@ func (s *Store) LoadAssessContexts(ctx context.Context, ids []int64, eventsFrom 
 		}
 	}
 	for i := range states {
-		st := &states[i]
-		if err := st.CapacitorState.UnmarshalBinary(st.CapacitorLedger); err != nil {
-			return nil, fmt.Errorf("drive %d capacitor ledger: %w", st.DriveID, err)
-		}
-		if err := st.FanState.UnmarshalBinary(st.FanLedger); err != nil {
-			return nil, fmt.Errorf("drive %d fan ledger: %w", st.DriveID, err)
-		}
-		byDrive[st.DriveID].State = st
+		byDrive[states[i].DriveID].State = &states[i] // ledgers decoded by AfterFind
 	}
 	for _, m := range marks {
 		c := byDrive[m.DriveID]
@@ -367,12 +454,8 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 			}
 			if r.SaveState {
 				r.State.DriveID, r.State.UpdatedAt = r.DriveID, at
-				var err error
-				if r.State.CapacitorLedger, err = r.State.CapacitorState.MarshalBinary(); err != nil {
-					return err
-				}
-				if r.State.FanLedger, err = r.State.FanState.MarshalBinary(); err != nil {
-					return err
+				if err := r.State.encodeLedgers(); err != nil {
+					return fmt.Errorf("encode ledgers of drive %d: %w", r.DriveID, err)
 				}
 				states = append(states, r.State)
 			}
@@ -417,7 +500,11 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 			return err
 		}
 		if len(states) > 0 {
-			if err := tx.Clauses(clause.OnConflict{UpdateAll: true}).CreateInBatches(states, 100).Error; err != nil {
+			upsert, err := stateUpsert(tx)
+			if err != nil {
+				return err
+			}
+			if err := tx.Clauses(upsert).CreateInBatches(states, 100).Error; err != nil {
 				return fmt.Errorf("save drive states: %w", translate(err))
 			}
 		}
