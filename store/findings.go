@@ -247,10 +247,10 @@ type FindingUpdate struct {
 //   - findings of rules not evaluated are left alone.
 //
 // existing holds the drive's unresolved findings. It returns the findings
-// opened as critical, for notification, and the ids of findings whose only
-// change is the last-seen time, newly cleared or resolved, which the
-// caller writes for a whole batch in one statement each (see
-// findingMarks.write).
+// opened as critical, for notification, and adds to marks the findings
+// whose only change is the last-seen time, being cleared or being
+// resolved, which the caller writes for a whole batch in a statement per
+// kind (findingMarks.write).
 func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolveAfter time.Duration, marks *findingMarks) ([]Finding, error) {
 	byRule := map[string]*Finding{}
 	for i := range existing {
