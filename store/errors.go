@@ -53,13 +53,25 @@ type ValidationError struct {
 	Fields []FieldError
 }
 
+// Error lists the first errorListLimit field errors and counts the rest:
+// a file with every row wrong would otherwise make one line of megabytes
+// in a log or on a terminal. Fields keeps them all (the API answers with
+// every one).
 func (e *ValidationError) Error() string {
-	parts := make([]string, len(e.Fields))
-	for i, f := range e.Fields {
+	n := min(len(e.Fields), errorListLimit)
+	parts := make([]string, n)
+	for i, f := range e.Fields[:n] {
 		parts[i] = f.String()
 	}
-	return "invalid input: " + strings.Join(parts, "; ")
+	msg := "invalid input: " + strings.Join(parts, "; ")
+	if more := len(e.Fields) - n; more > 0 {
+		msg += fmt.Sprintf("; and %d more", more)
+	}
+	return msg
 }
+
+// errorListLimit is how many field errors ValidationError.Error lists.
+const errorListLimit = 20
 
 // fieldErrors collects field errors while validating one object.
 type fieldErrors []FieldError
