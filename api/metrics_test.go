@@ -22,20 +22,6 @@ import (
 	"kelvard/store/storetest"
 )
 
-// requireTool finds a command the test needs; CI sets
-// KELVARD_TEST_REQUIRE_TOOLS so a missing tool fails there.
-func requireTool(t *testing.T, name string) string {
-	t.Helper()
-	p, err := exec.LookPath(name)
-	if err != nil {
-		if os.Getenv("KELVARD_TEST_REQUIRE_TOOLS") != "" {
-			t.Fatalf("%s is required (KELVARD_TEST_REQUIRE_TOOLS is set) but not installed", name)
-		}
-		t.Skipf("%s is not installed; .ci/run installs it", name)
-	}
-	return p
-}
-
 func TestMetricsEndpoint(t *testing.T) {
 	t.Parallel()
 	forEachStore(t, func(t *testing.T, h *harness) {
@@ -69,7 +55,7 @@ func TestMetricsEndpoint(t *testing.T) {
 			t.Errorf("store errors = %v", v)
 		}
 
-		promtool := requireTool(t, "promtool")
+		promtool := storetest.RequireTool(t, "promtool", "prometheus")
 		cmd := exec.Command(promtool, "check", "metrics")
 		cmd.Stdin = bytes.NewReader(a.body)
 		out, err := cmd.CombinedOutput()

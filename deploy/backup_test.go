@@ -26,7 +26,7 @@ import (
 // and partitions came back too).
 func TestPgDumpRestoreRoundTrip(t *testing.T) {
 	for _, tool := range []string{"pg_dump", "pg_restore"} {
-		requireTool(t, tool, "postgresql-client")
+		storetest.RequireTool(t, tool, "postgresql-client")
 	}
 	ctx := context.Background()
 	now := time.Date(2026, 2, 10, 0, 0, 0, 0, time.UTC)

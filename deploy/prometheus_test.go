@@ -1,6 +1,7 @@
 package deploy
 
 import (
+	"kelvard/store/storetest"
 	"os"
 	"path/filepath"
 	"strings"
@@ -43,7 +44,7 @@ func prometheusConfigCopy(t *testing.T) (dir, config string) {
 // rule files the configuration names.
 func TestPrometheusConfig(t *testing.T) {
 	t.Parallel()
-	promtool := requireTool(t, "promtool", "prometheus")
+	promtool := storetest.RequireTool(t, "promtool", "prometheus")
 	dir, config := prometheusConfigCopy(t)
 	out := runTool(t, dir, promtool, "check", "config", config)
 	if !strings.Contains(out, "SUCCESS: 1 rule files found") {
@@ -55,7 +56,7 @@ func TestPrometheusConfig(t *testing.T) {
 // every alert to having a unit test and the annotations operators read.
 func TestAlertRules(t *testing.T) {
 	t.Parallel()
-	promtool := requireTool(t, "promtool", "prometheus")
+	promtool := storetest.RequireTool(t, "promtool", "prometheus")
 	runTool(t, ".", promtool, "check", "rules", "alerts.yml")
 	out := runTool(t, ".", promtool, "test", "rules", "alerts_test.yml")
 	if !strings.Contains(out, "SUCCESS") {

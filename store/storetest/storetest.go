@@ -5,7 +5,9 @@
 // PostgreSQL is found at KELVARD_TEST_DATABASE_URL (default
 // postgres://postgres@127.0.0.1:5432/test). When it cannot be reached the
 // PostgreSQL tests skip with the reason, unless KELVARD_TEST_REQUIRE_POSTGRES
-// is set (CI sets it), in which case they fail.
+// is set (CI sets it), in which case they fail. RequireTool does the same
+// for the commands some tests run (chromium, promtool, pg_dump) with
+// KELVARD_TEST_REQUIRE_TOOLS.
 package storetest
 
 import (

@@ -11,8 +11,8 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"kelvard/store/storetest"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strings"
 	"sync"
@@ -22,20 +22,6 @@ import (
 	"github.com/chromedp/chromedp"
 	"github.com/chromedp/chromedp/kb"
 )
-
-// RequireTool finds a command the test needs; CI sets
-// KELVARD_TEST_REQUIRE_TOOLS so a missing tool fails there.
-func RequireTool(t *testing.T, name string) string {
-	t.Helper()
-	p, err := exec.LookPath(name)
-	if err != nil {
-		if os.Getenv("KELVARD_TEST_REQUIRE_TOOLS") != "" {
-			t.Fatalf("%s is required (KELVARD_TEST_REQUIRE_TOOLS is set) but not installed", name)
-		}
-		t.Skipf("%s is not installed; .ci/run installs it (apt-get install chromium)", name)
-	}
-	return p
-}
 
 // RepoRoot is the folder holding go.mod.
 func RepoRoot(t *testing.T) string {
@@ -92,7 +78,7 @@ type Browser struct {
 // profile folder, and collects every console error, uncaught exception
 // and browser-log error. Screenshots go to test-output/<shots>/.
 func New(t *testing.T, base, shots string) *Browser {
-	exe := RequireTool(t, "chromium")
+	exe := storetest.RequireTool(t, "chromium", "chromium")
 	axe := RequireAxe(t)
 	dir := filepath.Join(RepoRoot(t), "test-output", shots)
 	if err := os.MkdirAll(dir, 0o755); err != nil {
