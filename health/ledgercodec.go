@@ -42,16 +42,27 @@ func (l *LifeLedger) MarshalBinary() ([]byte, error) {
 	for _, n := range []int64{l.Samples, l.Skipped, l.Gaps, l.Air.Internal, l.Air.Estimated, l.Air.AmbientPlusRise, l.Air.Ambient, l.Air.Missing} {
 		b = binary.AppendVarint(b, n)
 	}
-	b = binary.AppendVarint(b, int64(len(l.Days)))
-	prev := int32(0)
-	for _, d := range l.Days {
-		b = appendDay(b, d, prev)
-		prev = d.Day
-	}
+	b = appendDays(b, l.Days)
 	if l.HasCurrent {
+		prev := int32(0)
+		if n := len(l.Days); n > 0 {
+			prev = l.Days[n-1].Day
+		}
 		b = appendDay(b, l.Current, prev)
 	}
 	return b, nil
+}
+
+// appendDays appends a count and the day buckets, each day number as a
+// delta from the one before.
+func appendDays(b []byte, days []DayDamage) []byte {
+	b = binary.AppendVarint(b, int64(len(days)))
+	prev := int32(0)
+	for _, d := range days {
+		b = appendDay(b, d, prev)
+		prev = d.Day
+	}
+	return b
 }
 
 // Day bucket flags.
@@ -139,6 +150,29 @@ func (r *ledgerReader) day(prev int32) DayDamage {
 	return d
 }
 
+// days reads what appendDays wrote and the last day number (0 with none).
+func (r *ledgerReader) days() ([]DayDamage, int32) {
+	n := r.varint()
+	if r.err != nil {
+		return nil, 0
+	}
+	if n < 0 || n > int64(len(r.b)) {
+		r.err = errLedgerCodec
+		return nil, 0
+	}
+	var out []DayDamage
+	if n > 0 {
+		out = make([]DayDamage, 0, n)
+	}
+	prev := int32(0)
+	for range n {
+		d := r.day(prev)
+		out = append(out, d)
+		prev = d.Day
+	}
+	return out, prev
+}
+
 // UnmarshalBinary decodes a ledger written by MarshalBinary.
 func (l *LifeLedger) UnmarshalBinary(data []byte) error {
 	r := &ledgerReader{b: data}
@@ -152,19 +186,8 @@ func (l *LifeLedger) UnmarshalBinary(data []byte) error {
 	out.Damage, out.Seconds, out.AgingS, out.GapS = r.float(), r.float(), r.float(), r.float()
 	out.Samples, out.Skipped, out.Gaps = r.varint(), r.varint(), r.varint()
 	out.Air = AirSourceCounts{Internal: r.varint(), Estimated: r.varint(), AmbientPlusRise: r.varint(), Ambient: r.varint(), Missing: r.varint()}
-	n := r.varint()
-	if r.err == nil && (n < 0 || n > int64(len(r.b))) {
-		return errLedgerCodec
-	}
-	prev := int32(0)
-	if n > 0 {
-		out.Days = make([]DayDamage, 0, n)
-	}
-	for range n {
-		d := r.day(prev)
-		out.Days = append(out.Days, d)
-		prev = d.Day
-	}
+	var prev int32
+	out.Days, prev = r.days()
 	if out.HasCurrent {
 		out.Current = r.day(prev)
 	}
@@ -194,13 +217,7 @@ func (l *LifeLedger) MarshalSplit() (head, days []byte, err error) {
 		return nil, nil, err
 	}
 	days = make([]byte, 0, 8+len(l.Days)*20)
-	days = append(days, daysCodecVersion)
-	days = binary.AppendVarint(days, int64(len(l.Days)))
-	prev := int32(0)
-	for _, d := range l.Days {
-		days = appendDay(days, d, prev)
-		prev = d.Day
-	}
+	days = appendDays(append(days, daysCodecVersion), l.Days)
 	return head, days, nil
 }
 
@@ -223,19 +240,7 @@ func (l *LifeLedger) UnmarshalSplit(head, days []byte) error {
 	if v := r.byte(); r.err == nil && v != daysCodecVersion {
 		return fmt.Errorf("life ledger days: encoding version %d, want %d", v, daysCodecVersion)
 	}
-	n := r.varint()
-	if r.err == nil && (n < 0 || n > int64(len(r.b))) {
-		return errLedgerCodec
-	}
-	if n > 0 {
-		out.Days = make([]DayDamage, 0, n)
-	}
-	prev := int32(0)
-	for range n {
-		d := r.day(prev)
-		out.Days = append(out.Days, d)
-		prev = d.Day
-	}
+	out.Days, _ = r.days()
 	if r.err != nil {
 		return r.err
 	}

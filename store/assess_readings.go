@@ -438,8 +438,8 @@ func binaryColumns(rows pgx.Rows) error {
 			return translate(err)
 		}
 	}
-	if len(fields) != 13 {
-		return fmt.Errorf("%d columns, want 13", len(fields))
+	if len(fields) != len(readingFields) {
+		return fmt.Errorf("%d columns, want %d", len(fields), len(readingFields))
 	}
 	for _, f := range fields {
 		if f.Format != pgtype.BinaryFormatCode {
@@ -458,8 +458,8 @@ func binaryColumns(rows pgx.Rows) error {
 // holds this to pgx's own decoding.
 func decodeReadingRow(raw [][]byte) (readingRow, error) {
 	var r readingRow
-	if len(raw) != 13 {
-		return r, fmt.Errorf("%d values, want 13", len(raw))
+	if len(raw) != len(readingFields) {
+		return r, fmt.Errorf("%d values, want %d", len(raw), len(readingFields))
 	}
 	for i, b := range raw {
 		if b == nil {
@@ -649,9 +649,9 @@ const (
 	colTime                  // time.Time, *time.Time (nil is NULL)
 )
 
-// derivedTable returns a derived table "(…) AS v" with the named columns
-// holding rows (one []any per row, in column order) and the arguments it
-// takes. On PostgreSQL it is an unnest of one array per column, so the
+// derivedTable returns a table expression for a FROM clause, aliased v,
+// with the named columns holding rows (one []any per row, in column
+// order), and the arguments it takes. On PostgreSQL it is an unnest of one array per column, so the
 // statement has a fixed text and as many parameters as columns whatever
 // the row count (a UNION ALL of a hundred SELECTs took longer to plan
 // than to run); SQLite, which has no arrays, gets the UNION ALL with one
@@ -688,7 +688,7 @@ func (s *Store) derivedTable(names []string, types []colType, rows [][]any) (str
 				b.WriteString(strconv.FormatInt(r[i].(int64), 10))
 			case colTime:
 				if tm, ok := timeOf(r[i]); ok {
-					b.WriteString(tm.UTC().Format("2006-01-02T15:04:05.999999Z"))
+					b.WriteString(tm.UTC().Format(pgTimeLayout))
 				} else {
 					b.WriteString("NULL")
 				}
@@ -703,6 +703,10 @@ func (s *Store) derivedTable(names []string, types []colType, rows [][]any) (str
 	}
 	return "unnest(" + strings.Join(arrays, ", ") + ") AS v(" + strings.Join(names, ", ") + ")", args
 }
+
+// pgTimeLayout writes a UTC time as PostgreSQL reads a timestamptz
+// literal, to the microsecond it keeps.
+const pgTimeLayout = "2006-01-02T15:04:05.999999Z"
 
 // timeOf reads a time.Time or a non-nil *time.Time.
 func timeOf(v any) (time.Time, bool) {
@@ -743,7 +747,7 @@ func (s *Store) CopyReadings(ctx context.Context, w io.Writer, narrowBefore time
 	sel := readingColumns
 	if !narrowBefore.IsZero() {
 		// COPY takes no parameters; a formatted time is safe to inline.
-		sel = readingSelect("'" + narrowBefore.UTC().Format("2006-01-02T15:04:05.999999Z") + "'::timestamptz")
+		sel = readingSelect("'" + narrowBefore.UTC().Format(pgTimeLayout) + "'::timestamptz")
 	}
 	var n int64
 	err = conn.Raw(func(dc any) error {

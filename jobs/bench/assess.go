@@ -184,31 +184,24 @@ func Assess(ctx context.Context, cfg AssessConfig) (AssessReport, error) {
 		return rep, err
 	}
 	defer conn.Close()
-	var times []time.Duration
-	for range 3 {
-		start = time.Now()
+	if rep.Baseline, err = medianOf3(func() error {
 		var n int
 		if err := conn.QueryRowContext(ctx, baselineQuery).Scan(&n); err != nil {
-			return rep, fmt.Errorf("baseline query: %w", err)
+			return fmt.Errorf("baseline query: %w", err)
 		}
-		times = append(times, time.Since(start))
+		return nil
+	}); err != nil {
+		return rep, err
 	}
-	slices.Sort(times)
-	rep.Baseline = times[1] // the median of three
-
 	// The floor: the same rows and columns copied out (the window-only
 	// fields of older readings as NULL, as the full run reads them),
 	// nothing computed.
-	times = times[:0]
-	for range 3 {
-		start = time.Now()
-		if _, err := st.CopyReadings(ctx, io.Discard, clock.AddDate(0, 0, -jobs.DefaultWindowDays)); err != nil {
-			return rep, err
-		}
-		times = append(times, time.Since(start))
+	if rep.Floor, err = medianOf3(func() error {
+		_, err := st.CopyReadings(ctx, io.Discard, clock.AddDate(0, 0, -jobs.DefaultWindowDays))
+		return err
+	}); err != nil {
+		return rep, err
 	}
-	slices.Sort(times)
-	rep.Floor = times[1]
 
 	say("incremental assessment after %d new readings per drive", newPer)
 	tl2 := tl
@@ -265,7 +258,7 @@ func Assess(ctx context.Context, cfg AssessConfig) (AssessReport, error) {
 		return rep, err
 	}
 	defer srv.stop()
-	times = times[:0]
+	var times []time.Duration
 	client := &http.Client{Timeout: time.Minute}
 	for range 6 {
 		start = time.Now()
@@ -343,4 +336,18 @@ func bulkFleet(ctx context.Context, db *sql.DB, n int, installedAt time.Time) er
 		}
 	}
 	return nil
+}
+
+// medianOf3 times fn three times and returns the median.
+func medianOf3(fn func() error) (time.Duration, error) {
+	var times [3]time.Duration
+	for i := range times {
+		start := time.Now()
+		if err := fn(); err != nil {
+			return 0, err
+		}
+		times[i] = time.Since(start)
+	}
+	slices.Sort(times[:])
+	return times[1], nil
 }
