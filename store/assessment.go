@@ -435,7 +435,7 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 	if opts.ResolveAfter == 0 {
 		opts.ResolveAfter = 24 * time.Hour
 	}
-	return s.tx(ctx, func(tx *gorm.DB) error {
+	return s.txConn(ctx, func(tx *gorm.DB, pg pgRunner) error {
 		var states []DriveState
 		var rows []Assessment
 		var days []AssessmentDay
@@ -498,6 +498,9 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 		}
 		if err := s.advanceWatermarks(tx, results); err != nil {
 			return err
+		}
+		if pg != nil {
+			return saveAssessedPG(ctx, pg, states, rows, days)
 		}
 		if len(states) > 0 {
 			upsert, err := stateUpsert(tx)
