@@ -492,6 +492,9 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 			}
 		}
 		for at, m := range marks {
+			if err := m.writeChanged(ctx, tx, pg, s.now()); err != nil {
+				return err
+			}
 			if err := m.write(tx, at); err != nil {
 				return err
 			}

@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"time"
 
+	"github.com/jackc/pgx/v5"
 	"gorm.io/gorm"
 
 	"kelvard/health"
@@ -271,13 +272,18 @@ func reconcileFindings(tx *gorm.DB, u FindingUpdate, existing []Finding, resolve
 			f.Severity, f.Message, f.Evidence, f.Remedy, f.Kind, f.PhysicalWork = h.Severity, h.Message, h.Evidence, h.Remedy, h.Kind, h.PhysicalWork
 			f.SiteID, f.AreaID, f.PositionID, f.ClearedAt = u.SiteID, u.AreaID, u.PositionID, nil
 			f.LastSeenAt = u.At
-			if !changed {
+			switch {
+			case expired:
+				// Rare: written on its own, and only if still suppressed
+				// as loaded.
+				if err := reopenExpired(tx, f, u.At); err != nil {
+					return nil, err
+				}
+			case changed:
+				marks.changed = append(marks.changed, *f)
+			default:
 				// Only the last-seen time moved.
 				marks.seen = append(marks.seen, f.ID)
-				continue
-			}
-			if err := tx.Save(f).Error; err != nil {
-				return nil, fmt.Errorf("update finding %d: %w", f.ID, translate(err))
 			}
 			continue
 		}
@@ -320,6 +326,97 @@ type findingMarks struct {
 	seen     []int64 // held again: last_seen_at moves
 	cleared  []int64 // no longer held: cleared_at is set
 	resolved []int64 // cleared for long enough: resolved
+	// changed are held again with other content (a message that counts
+	// the hours of a silence, say); only the columns the assessment owns
+	// are written, so an acknowledgement made meanwhile stays.
+	changed []Finding
+}
+
+// findingContentColumns are the columns an assessment rewrites in a
+// finding that still holds.
+var findingContentColumns = []string{"severity", "message", "evidence", "remedy", "kind", "physical_work", "site_id", "area_id",
+	"position_id", "cleared_at", "last_seen_at", "updated_at"}
+
+// contentValues are f's values of findingContentColumns, the evidence as
+// JSON as GORM's serializer writes it.
+func contentValues(f *Finding, now time.Time) (map[string]any, error) {
+	ev, err := json.Marshal(f.Evidence)
+	if err != nil {
+		return nil, fmt.Errorf("encode evidence of finding %d: %w", f.ID, err)
+	}
+	return map[string]any{"severity": f.Severity, "message": f.Message, "evidence": string(ev), "remedy": f.Remedy, "kind": f.Kind,
+		"physical_work": f.PhysicalWork, "site_id": f.SiteID, "area_id": f.AreaID, "position_id": f.PositionID,
+		"cleared_at": nil, "last_seen_at": f.LastSeenAt, "updated_at": now}, nil
+}
+
+// reopenExpired writes a finding whose suppression has run out: open
+// again, with its new content, unless it changed status meanwhile.
+func reopenExpired(tx *gorm.DB, f *Finding, at time.Time) error {
+	vals, err := contentValues(f, at)
+	if err != nil {
+		return err
+	}
+	vals["status"], vals["status_reason"] = FindingOpen, "suppression expired"
+	vals["suppressed_at"], vals["suppressed_by"], vals["suppressed_until"] = nil, "", nil
+	if err := tx.Model(&Finding{}).Where("id = ? AND status = ?", f.ID, FindingSuppressed).Updates(vals).Error; err != nil {
+		return fmt.Errorf("reopen finding %d: %w", f.ID, translate(err))
+	}
+	return nil
+}
+
+// writeChanged writes the changed findings: on PostgreSQL in one statement
+// with the values as arrays (pg is the transaction's connection), on
+// SQLite, in process, one statement each.
+func (m *findingMarks) writeChanged(ctx context.Context, tx *gorm.DB, pg pgRunner, now time.Time) error {
+	if len(m.changed) == 0 {
+		return nil
+	}
+	if pg == nil {
+		for i := range m.changed {
+			f := &m.changed[i]
+			vals, err := contentValues(f, now)
+			if err != nil {
+				return err
+			}
+			if err := tx.Model(&Finding{}).Where("id = ?", f.ID).Updates(vals).Error; err != nil {
+				return fmt.Errorf("update finding %d: %w", f.ID, translate(err))
+			}
+		}
+		return nil
+	}
+	n := len(m.changed)
+	var (
+		ids, sites        = make([]int64, n), make([]int64, n)
+		areas, positions  = make([]*int64, n), make([]*int64, n)
+		sev, msg, ev, rem = make([]string, n), make([]string, n), make([]string, n), make([]string, n)
+		kinds             = make([]string, n)
+		physical          = make([]bool, n)
+		seen              = make([]time.Time, n)
+	)
+	for i := range m.changed {
+		f := &m.changed[i]
+		b, err := json.Marshal(f.Evidence)
+		if err != nil {
+			return fmt.Errorf("encode evidence of finding %d: %w", f.ID, err)
+		}
+		ids[i], sites[i], areas[i], positions[i] = f.ID, f.SiteID, f.AreaID, f.PositionID
+		sev[i], msg[i], ev[i], rem[i], kinds[i] = string(f.Severity), f.Message, string(b), f.Remedy, string(f.Kind)
+		physical[i], seen[i] = f.PhysicalWork, f.LastSeenAt.UTC()
+	}
+	return pg(func(c *pgx.Conn) error {
+		_, err := c.Exec(ctx, `UPDATE findings f SET severity = v.severity, message = v.message, evidence = v.evidence::jsonb,
+			remedy = v.remedy, kind = v.kind, physical_work = v.physical_work, site_id = v.site_id, area_id = v.area_id,
+			position_id = v.position_id, cleared_at = NULL, last_seen_at = v.last_seen_at, updated_at = $12
+			FROM unnest($1::bigint[], $2::text[], $3::text[], $4::text[], $5::text[], $6::text[], $7::boolean[], $8::bigint[],
+			            $9::bigint[], $10::bigint[], $11::timestamptz[])
+			     AS v(id, severity, message, evidence, remedy, kind, physical_work, site_id, area_id, position_id, last_seen_at)
+			WHERE f.id = v.id`,
+			ids, sev, msg, ev, rem, kinds, physical, sites, areas, positions, seen, now.UTC())
+		if err != nil {
+			return fmt.Errorf("update findings: %w", translate(err))
+		}
+		return nil
+	})
 }
 
 // write applies the marks as of at.
