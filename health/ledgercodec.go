@@ -211,14 +211,58 @@ const daysCodecVersion = 1
 // apart and rewrites the days only when they have changed (on a ledger of
 // 400 days they are nearly all of its 7 kB).
 func (l *LifeLedger) MarshalSplit() (head, days []byte, err error) {
-	h := *l
-	h.Days = nil
-	if head, err = h.MarshalBinary(); err != nil {
+	if head, err = l.MarshalHead(); err != nil {
 		return nil, nil, err
 	}
-	days = make([]byte, 0, 8+len(l.Days)*20)
-	days = appendDays(append(days, daysCodecVersion), l.Days)
-	return head, days, nil
+	return head, EncodeDays(l.Days), nil
+}
+
+// MarshalHead is the head MarshalSplit writes: the ledger without its
+// closed days.
+func (l *LifeLedger) MarshalHead() ([]byte, error) {
+	h := *l
+	h.Days = nil
+	return h.MarshalBinary()
+}
+
+// EncodeDays encodes closed day buckets, oldest first, as MarshalSplit
+// encodes a ledger's: any run of them can be encoded on its own, so the
+// store can keep a ledger's days in pieces and rewrite only the piece a
+// closing day changes.
+func EncodeDays(days []DayDamage) []byte {
+	b := make([]byte, 0, 8+len(days)*20)
+	return appendDays(append(b, daysCodecVersion), days)
+}
+
+// DecodeDays decodes what EncodeDays wrote.
+func DecodeDays(b []byte) ([]DayDamage, error) {
+	return AppendDecodedDays(nil, b)
+}
+
+// AppendDecodedDays decodes what EncodeDays wrote and appends the days to
+// dst.
+func AppendDecodedDays(dst []DayDamage, b []byte) ([]DayDamage, error) {
+	r := &ledgerReader{b: b}
+	if v := r.byte(); r.err == nil && v != daysCodecVersion {
+		return dst, fmt.Errorf("life ledger days: encoding version %d, want %d", v, daysCodecVersion)
+	}
+	n := r.varint()
+	if r.err == nil && (n < 0 || n > int64(len(r.b))) {
+		r.err = errLedgerCodec
+	}
+	prev := int32(0)
+	for i := int64(0); r.err == nil && i < n; i++ {
+		d := r.day(prev)
+		dst = append(dst, d)
+		prev = d.Day
+	}
+	if r.err != nil {
+		return dst, r.err
+	}
+	if len(r.b) != 0 {
+		return dst, fmt.Errorf("life ledger days: %d trailing bytes", len(r.b))
+	}
+	return dst, nil
 }
 
 // UnmarshalSplit decodes the two parts MarshalSplit writes. With days nil
@@ -236,16 +280,9 @@ func (l *LifeLedger) UnmarshalSplit(head, days []byte) error {
 	if len(out.Days) != 0 {
 		return fmt.Errorf("life ledger: closed days both in the head (%d) and apart", len(out.Days))
 	}
-	r := &ledgerReader{b: days}
-	if v := r.byte(); r.err == nil && v != daysCodecVersion {
-		return fmt.Errorf("life ledger days: encoding version %d, want %d", v, daysCodecVersion)
-	}
-	out.Days, _ = r.days()
-	if r.err != nil {
-		return r.err
-	}
-	if len(r.b) != 0 {
-		return fmt.Errorf("life ledger days: %d trailing bytes", len(r.b))
+	var err error
+	if out.Days, err = DecodeDays(days); err != nil {
+		return err
 	}
 	*l = out
 	return nil

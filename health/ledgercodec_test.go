@@ -191,3 +191,42 @@ func TestLedgerCodecSplit(t *testing.T) {
 		}
 	}
 }
+
+// TestDaysEncodeInPieces: closed days encoded in runs (as the store keeps
+// them, in chunks) decode to the same days as encoded whole, and the whole
+// encoding is the one MarshalSplit writes.
+func TestDaysEncodeInPieces(t *testing.T) {
+	var l LifeLedger
+	for d := range int32(130) {
+		l.Days = append(l.Days, DayDamage{Day: 20000 + d*3/2, Damage: 1e-3 * float64(d+1), Seconds: 86400 - float64(d%3)*60,
+			AgingS: 80000 + float64(d), TempS: 3.3e6 + float64(d)})
+	}
+	_, whole, err := l.MarshalSplit()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if string(whole) != string(EncodeDays(l.Days)) {
+		t.Fatal("EncodeDays differs from the days MarshalSplit writes")
+	}
+	for _, cuts := range [][]int{{0, 130}, {0, 1, 130}, {0, 64, 65, 129, 130}, {0, 13, 50, 77, 130}} {
+		var got []DayDamage
+		for i := 1; i < len(cuts); i++ {
+			days, err := DecodeDays(EncodeDays(l.Days[cuts[i-1]:cuts[i]]))
+			if err != nil {
+				t.Fatal(err)
+			}
+			got = append(got, days...)
+		}
+		if !reflect.DeepEqual(got, l.Days) {
+			t.Errorf("cut at %v: days differ after a round trip", cuts)
+		}
+	}
+	if days, err := DecodeDays(EncodeDays(nil)); err != nil || len(days) != 0 {
+		t.Errorf("no days: %v, %v", days, err)
+	}
+	for _, bad := range [][]byte{nil, {2, 0}, {1, 2, 0}, append(EncodeDays(l.Days[:2]), 0)} {
+		if _, err := DecodeDays(bad); err == nil {
+			t.Errorf("DecodeDays(%v) took a bad encoding", bad)
+		}
+	}
+}

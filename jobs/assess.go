@@ -427,11 +427,8 @@ func (a *Assessor) finish(pl *drivePlan, rs []reading, hs []store.HourlyReading,
 	if c.Fan != nil {
 		state.FanComponentID = &c.Fan.ID
 	}
-	if prev != nil {
-		// The closed days as stored, so the save can tell whether they
-		// changed.
-		state.CapacitorDays, state.FanDays = prev.CapacitorDays, prev.FanDays
-	}
+	// The closed days as stored, so the save writes only what changed.
+	state.CarryStored(prev)
 	if prev != nil && !pl.full {
 		state.Measured, state.TrendAt = prev.Measured, prev.TrendAt
 	}

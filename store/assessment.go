@@ -2,6 +2,7 @@ package store
 
 import (
 	"bytes"
+	"cmp"
 	"context"
 	"database/sql/driver"
 	"encoding/json"
@@ -27,14 +28,13 @@ type DriveState struct {
 	FanState             health.FanState       `gorm:"-"`
 	// CapacitorLedger and FanLedger are the states as stored, in the
 	// ledger's compact binary form without the closed days
-	// (health.LifeLedger.MarshalSplit), or with them where the days
-	// column is NULL (a ledger stored before they were split).
+	// (health.LifeLedger.MarshalHead), or with them where the days column
+	// is NULL (a ledger stored before they were kept apart).
 	CapacitorLedger []byte `gorm:"column:capacitor_state"`
 	FanLedger       []byte `gorm:"column:fan_state"`
-	// CapacitorDays and FanDays are the ledgers' closed days as stored.
-	// SaveAssessments writes a ledger's closed days only when they differ
-	// from these, so carry them over from the state loaded: the days
-	// change once a day, the rest of a ledger with every reading.
+	// CapacitorDays and FanDays are the days columns as stored: closed
+	// days written by versions before they went into ledger_day_chunks,
+	// or none (emptyDays) once a save has moved them there.
 	CapacitorDays NullBytes                       `gorm:"column:capacitor_days"`
 	FanDays       NullBytes                       `gorm:"column:fan_days"`
 	Measured      *health.CapacitorMeasuredReport `gorm:"serializer:json"`
@@ -50,38 +50,16 @@ type DriveState struct {
 	UnobservedCapacitorH float64
 	UnobservedFanH       float64
 	UpdatedAt            time.Time
+
+	// stored is each ledger's closed days as loaded, which a save compares
+	// with to write only the chunks that changed (CarryStored).
+	stored [2]storedDays
+	// sentChunks counts the chunks the last save wrote or deleted.
+	sentChunks int
 }
 
 // TableName names the table.
 func (DriveState) TableName() string { return "drive_state" }
-
-// AfterFind decodes the ledgers of a state read from the store.
-func (st *DriveState) AfterFind(*gorm.DB) error {
-	if err := st.CapacitorState.UnmarshalSplit(st.CapacitorLedger, st.CapacitorDays); err != nil {
-		return fmt.Errorf("drive %d capacitor ledger: %w", st.DriveID, err)
-	}
-	if err := st.FanState.UnmarshalSplit(st.FanLedger, st.FanDays); err != nil {
-		return fmt.Errorf("drive %d fan ledger: %w", st.DriveID, err)
-	}
-	return nil
-}
-
-// encodeLedgers sets the stored forms of the state's ledgers for a save. A
-// ledger's closed days that equal those stored are set to nil, which the
-// upsert (stateUpsert) takes for "leave the column as it is".
-func (st *DriveState) encodeLedgers() error {
-	var err error
-	var days []byte
-	if st.CapacitorLedger, days, err = st.CapacitorState.MarshalSplit(); err != nil {
-		return err
-	}
-	st.CapacitorDays = changedOrNil(days, st.CapacitorDays)
-	if st.FanLedger, days, err = st.FanState.MarshalSplit(); err != nil {
-		return err
-	}
-	st.FanDays = changedOrNil(days, st.FanDays)
-	return nil
-}
 
 // NullBytes is a byte slice stored as NULL when nil (the SQLite driver
 // stores a nil []byte as an empty blob).
@@ -108,14 +86,6 @@ func (b *NullBytes) Scan(src any) error {
 		return fmt.Errorf("scan %T into bytes", src)
 	}
 	return nil
-}
-
-// changedOrNil returns days, or nil when they equal the stored ones.
-func changedOrNil(days, stored []byte) NullBytes {
-	if stored != nil && bytes.Equal(days, stored) {
-		return nil
-	}
-	return days
 }
 
 // stateUpsert writes states over existing rows, keeping the stored closed
@@ -316,6 +286,10 @@ func (s *Store) LoadAssessContexts(ctx context.Context, ids []int64, eventsFrom 
 	if err := db.Where("drive_id IN ?", ids).Find(&states).Error; err != nil {
 		return nil, fmt.Errorf("load drive states: %w", translate(err))
 	}
+	chunks, err := s.loadDayChunks(ctx, db, ids)
+	if err != nil {
+		return nil, err
+	}
 	marks, err := s.loadWatermarks(ctx, db, ids)
 	if err != nil {
 		return nil, err
@@ -355,7 +329,16 @@ func (s *Store) LoadAssessContexts(ctx context.Context, ids []int64, eventsFrom 
 		}
 	}
 	for i := range states {
-		byDrive[states[i].DriveID].State = &states[i] // ledgers decoded by AfterFind
+		st := &states[i]
+		lo, _ := slices.BinarySearchFunc(chunks, st.DriveID, func(c ledgerDayChunk, id int64) int { return cmp.Compare(c.DriveID, id) })
+		hi := lo
+		for hi < len(chunks) && chunks[hi].DriveID == st.DriveID {
+			hi++
+		}
+		if err := st.decodeLedgers(chunks[lo:hi]); err != nil {
+			return nil, err
+		}
+		byDrive[st.DriveID].State = st
 	}
 	for _, m := range marks {
 		c := byDrive[m.DriveID]
@@ -437,6 +420,7 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 	}
 	return s.txConn(ctx, func(tx *gorm.DB, pg pgRunner) error {
 		var states []DriveState
+		var chunkWrites dayChunkWrites
 		var rows []Assessment
 		var days []AssessmentDay
 		marks := map[time.Time]*findingMarks{}
@@ -454,7 +438,7 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 			}
 			if r.SaveState {
 				r.State.DriveID, r.State.UpdatedAt = r.DriveID, at
-				if err := r.State.encodeLedgers(); err != nil {
+				if err := r.State.encodeLedgers(&chunkWrites); err != nil {
 					return fmt.Errorf("encode ledgers of drive %d: %w", r.DriveID, err)
 				}
 				states = append(states, r.State)
@@ -503,7 +487,10 @@ func (s *Store) SaveAssessments(ctx context.Context, results []AssessResult, opt
 			return err
 		}
 		if pg != nil {
-			return saveAssessedPG(ctx, pg, states, rows, days)
+			return saveAssessedPG(ctx, pg, states, rows, days, &chunkWrites)
+		}
+		if err := chunkWrites.writeGORM(tx); err != nil {
+			return err
 		}
 		if len(states) > 0 {
 			upsert, err := stateUpsert(tx)

@@ -149,6 +149,7 @@ var (
 	assessmentColumns = []string{"drive_id", "site_id", "position_id", "at", "capacitor_life_used_fraction", "capacitor_remaining_h",
 		"capacitor_end_of_life", "fan_life_used_fraction", "fan_remaining_h", "fan_end_of_life", "allowed_current_a",
 		"utilisation_fraction", "health_band", "risk_score", "health_score", "report"}
+	dayChunkColumns      = []string{"drive_id", "ledger", "chunk", "days"}
 	assessmentDayColumns = []string{"drive_id", "day", "position_id", "capacitor_life_used_fraction", "fan_life_used_fraction",
 		"capacitor_end_of_life", "utilisation_fraction", "allowed_current_a", "risk_score", "health_band"}
 )
@@ -164,6 +165,8 @@ var (
 	assessmentUpsert    = stagedUpsert{table: "assessments", columns: assessmentColumns, conflict: "drive_id", set: excludedSet(assessmentColumns, "drive_id")}
 	assessmentDayUpsert = stagedUpsert{table: "assessment_days", columns: assessmentDayColumns, conflict: "drive_id, day",
 		set: excludedSet(assessmentDayColumns, "drive_id", "day")}
+	dayChunkUpsert = stagedUpsert{table: "ledger_day_chunks", columns: dayChunkColumns, conflict: "drive_id, ledger, chunk",
+		set: excludedSet(dayChunkColumns, "drive_id", "ledger", "chunk")}
 )
 
 // pgRow gives the state's values in driveStateColumns order, its ledgers
@@ -208,9 +211,10 @@ func (d *AssessmentDay) pgRow() ([]any, error) {
 		d.UtilisationFraction, d.AllowedCurrentA, d.RiskScore, string(d.HealthBand)}, nil
 }
 
-// saveAssessedPG writes a batch's states, assessments and history rows
-// with staged upserts on the transaction's connection.
-func saveAssessedPG(ctx context.Context, pg pgRunner, states []DriveState, rows []Assessment, days []AssessmentDay) error {
+// saveAssessedPG writes a batch's states, their ledgers' changed day
+// chunks, assessments and history rows with staged upserts on the
+// transaction's connection.
+func saveAssessedPG(ctx context.Context, pg pgRunner, states []DriveState, rows []Assessment, days []AssessmentDay, chunks *dayChunkWrites) error {
 	stateRows := make([][]any, len(states))
 	for i := range states {
 		r, err := states[i].pgRow()
@@ -232,11 +236,14 @@ func saveAssessedPG(ctx context.Context, pg pgRunner, states []DriveState, rows 
 		dayRows[i] = r
 	}
 	return pg(func(c *pgx.Conn) error {
-		if err := createStages(ctx, c, driveStateUpsert, assessmentUpsert, assessmentDayUpsert); err != nil {
+		if err := createStages(ctx, c, driveStateUpsert, assessmentUpsert, assessmentDayUpsert, dayChunkUpsert); err != nil {
 			return err
 		}
 		if err := driveStateUpsert.run(ctx, c, stateRows); err != nil {
 			return fmt.Errorf("save drive states: %w", err)
+		}
+		if err := chunks.writePG(ctx, c); err != nil {
+			return err
 		}
 		if err := assessmentUpsert.run(ctx, c, assessRows); err != nil {
 			return fmt.Errorf("save assessments: %w", err)

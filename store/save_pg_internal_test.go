@@ -33,6 +33,7 @@ func TestStagedColumns(t *testing.T) {
 		{&DriveState{}, driveStateUpsert, driveStateColumns, stRow},
 		{&Assessment{}, assessmentUpsert, assessmentColumns, (&Assessment{}).pgRow()},
 		{&AssessmentDay{}, assessmentDayUpsert, assessmentDayColumns, dayRow},
+		{&ledgerDayChunk{}, dayChunkUpsert, dayChunkColumns, []any{int64(0), int16(0), int32(0), []byte{}}},
 	} {
 		sch, err := schema.Parse(c.model, &sync.Map{}, schema.NamingStrategy{})
 		if err != nil {

@@ -250,14 +250,23 @@ func loadAssessed(t *testing.T, st *store.Store) map[string]assessed {
 	for _, r := range rows {
 		out[serial[r.DriveID]] = assessed{row: r}
 	}
-	var states []store.DriveState
-	if err := db.Find(&states).Error; err != nil {
+	// The states as the assessment loads them: the ledgers decoded, their
+	// closed days gathered from their chunks.
+	ids := make([]int64, 0, len(drives))
+	for _, d := range drives {
+		ids = append(ids, d.ID)
+	}
+	cs, err := st.LoadAssessContexts(ctx, ids, time.Now())
+	if err != nil {
 		t.Fatal(err)
 	}
-	for _, s := range states {
-		a := out[serial[s.DriveID]]
-		a.state = s
-		out[serial[s.DriveID]] = a
+	for _, c := range cs {
+		if c.State == nil {
+			continue
+		}
+		a := out[serial[c.Drive.ID]]
+		a.state = *c.State
+		out[serial[c.Drive.ID]] = a
 	}
 	var findings []store.Finding
 	if err := db.Order("drive_id, rule").Find(&findings).Error; err != nil {
