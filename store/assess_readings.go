@@ -173,6 +173,13 @@ const (
 	physicalGroupDrives = 50
 )
 
+// recentSpan is how far before the latest watermark of a batch another
+// drive's watermark may lie for its new readings to be read in stored order
+// with the batch's (see scanReadingsPG): a group's read starts at its
+// earliest watermark, so a drive further behind would make every drive of
+// its group read back that far.
+const recentSpan = 7 * 24 * time.Hour
+
 // errGroupTooLarge stops a physical read that outgrew its memory bound.
 var errGroupTooLarge = errors.New("group of spans larger than expected")
 
@@ -181,20 +188,34 @@ var errGroupTooLarge = errors.New("group of spans larger than expected")
 //
 // Readings are stored in arrival order, every drive's readings of an hour
 // side by side, so one drive's history is spread over a page per reading.
-// Spans of new readings (an incremental run) are read by a probe of each
-// drive's range in the primary key. Whole histories (a full recompute) are
-// read in groups of drives, in the order PostgreSQL stores them, each page
-// once, then sorted by drive and time here: on bench assess (1000 drives ×
-// 5000 hourly readings) that took a batch's scan from about 1.1 s of
-// PostgreSQL's time to about a third. A history larger than a group, and a
+// Whole histories (a full recompute) are read in groups of drives, in the
+// order PostgreSQL stores them, each page once, then sorted by drive and
+// time here: on bench assess (1000 drives × 5000 hourly readings) that took
+// a batch's scan from about 1.1 s of PostgreSQL's time to about a third.
+// Spans of new readings (an incremental run) whose watermarks lie within
+// recentSpan of the batch's latest are read the same way: on bench assess
+// (50 new readings on each of 1000 drives) that halved PostgreSQL's time
+// for the run's scans, 147 to 69 ms. Other spans are read by a probe of each
+// drive's range in the primary key. A history larger than a group, and a
 // group that turns out larger than its bound as it is read, are probed
 // instead, so memory stays bounded.
 func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int64, int64, time.Time, health.Sample) error) error {
 	spans := slices.Clone(from)
 	slices.SortStableFunc(spans, func(a, b ScanFrom) int { return cmp.Compare(a.DriveID, b.DriveID) })
 	limit := int64(cmp.Or(s.scanGroupRows, physicalGroupRows))
+	var latest time.Time
+	for _, f := range spans {
+		if !f.Whole && f.After.After(latest) {
+			latest = f.After
+		}
+	}
 	var probed, physical []ScanFrom
 	for _, f := range spans {
+		if !f.Whole && !f.After.Before(latest.Add(-recentSpan)) {
+			// New readings since a recent watermark, as an incremental
+			// run has for nearly every drive: read in stored order too.
+			f.Whole, f.Expect = true, 0
+		}
 		if f.Whole && f.Expect <= limit {
 			if f.Expect <= 0 {
 				f.Expect = max(limit/physicalGroupDrives, 1)
