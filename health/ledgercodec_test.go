@@ -6,6 +6,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"reflect"
+	"slices"
 	"testing"
 )
 
@@ -229,4 +230,63 @@ func TestDaysEncodeInPieces(t *testing.T) {
 			t.Errorf("DecodeDays(%v) took a bad encoding", bad)
 		}
 	}
+}
+
+// FuzzDecodeDays holds AppendDecodedDays to the checked reader the ledger
+// codec decodes its own days with (ledgerReader.days): the same days, or
+// an error from both, and never a panic.
+func FuzzDecodeDays(f *testing.F) {
+	var l LifeLedger
+	for d := range int32(70) {
+		l.Days = append(l.Days, DayDamage{Day: 20000 + d, Damage: 1e-3 * float64(d), Seconds: 86400 - float64(d%2)*600,
+			AgingS: 86400 - float64(d%3)*60, TempS: 3e6})
+	}
+	f.Add(EncodeDays(l.Days))
+	f.Add(EncodeDays(l.Days[:1]))
+	f.Add(EncodeDays(nil))
+	f.Add([]byte{daysCodecVersion, 4, 2, 3})
+	f.Fuzz(func(t *testing.T, b []byte) {
+		got, err := DecodeDays(b)
+		var want []DayDamage
+		var wantErr bool
+		if len(b) == 0 || b[0] != daysCodecVersion {
+			wantErr = true
+		} else {
+			r := &ledgerReader{b: b[1:]}
+			want, _ = r.days()
+			wantErr = r.err != nil || len(r.b) != 0
+		}
+		if (err != nil) != wantErr {
+			t.Fatalf("error %v, the checked reader's %v", err, wantErr)
+		}
+		if err == nil && !slices.EqualFunc(got, want, sameDayBits) {
+			t.Fatalf("days differ from the checked reader's")
+		}
+	})
+}
+
+// BenchmarkDecodeDays decodes 400 closed days, as a store loads each
+// ledger of each drive it assesses.
+func BenchmarkDecodeDays(b *testing.B) {
+	var days []DayDamage
+	for d := range int32(400) {
+		days = append(days, DayDamage{Day: 20000 + d, Damage: 1e-3 * float64(d+1), Seconds: 86400, AgingS: 86400, TempS: 3.3e6 + float64(d)})
+	}
+	enc := EncodeDays(days)
+	buf := make([]DayDamage, 0, 400)
+	b.ReportAllocs()
+	for b.Loop() {
+		var err error
+		if buf, err = AppendDecodedDays(buf[:0], enc); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N*400), "ns/day")
+}
+
+// sameDayBits compares day buckets bit for bit (NaN equals NaN).
+func sameDayBits(a, b DayDamage) bool {
+	return a.Day == b.Day && math.Float64bits(a.Damage) == math.Float64bits(b.Damage) &&
+		math.Float64bits(a.Seconds) == math.Float64bits(b.Seconds) && math.Float64bits(a.AgingS) == math.Float64bits(b.AgingS) &&
+		math.Float64bits(a.TempS) == math.Float64bits(b.TempS)
 }

@@ -116,6 +116,8 @@ type ScanFrom struct {
 	// window checks read NaN for readings before it, as
 	// health.LedgerSample does; the scan may also return them whole.
 	NarrowBefore time.Time
+
+	guessed bool // Expect was set by the scan as a guess
 }
 
 // ScanReadings streams the readings of several drives, each after its own
@@ -218,7 +220,7 @@ func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int
 		}
 		if f.Whole && f.Expect <= limit {
 			if f.Expect <= 0 {
-				f.Expect = max(limit/physicalGroupDrives, 1)
+				f.Expect, f.guessed = max(limit/physicalGroupDrives, 1), true
 			}
 			physical = append(physical, f)
 		} else {
@@ -395,7 +397,14 @@ func scanPhysical(ctx context.Context, tx pgx.Tx, spans []ScanFrom, limit int, f
 			continue
 		}
 		if got[i] == nil {
-			got[i] = make([]readingRow, 0, min(f.Expect+f.Expect/8, int64(limit)))
+			// A known size is allocated at once; a guessed one (new
+			// readings, or a history never counted) grows as it comes:
+			// the guess is a group's share of the bound, about 0.9 MB.
+			n := min(f.Expect+f.Expect/8, int64(limit))
+			if f.guessed {
+				n = 64
+			}
+			got[i] = make([]readingRow, 0, n)
 		}
 		got[i] = append(got[i], row)
 	}
