@@ -117,7 +117,7 @@ type ScanFrom struct {
 	// health.LedgerSample does; the scan may also return them whole.
 	NarrowBefore time.Time
 
-	guessed bool // Expect was set by the scan as a guess
+	fresh bool // new readings only, read as a whole history would be
 }
 
 // ScanReadings streams the readings of several drives, each after its own
@@ -216,11 +216,11 @@ func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int
 		if !f.Whole && !f.After.Before(latest.Add(-recentSpan)) {
 			// New readings since a recent watermark, as an incremental
 			// run has for nearly every drive: read in stored order too.
-			f.Whole, f.Expect = true, 0
+			f.Whole, f.Expect, f.fresh = true, 0, true
 		}
 		if f.Whole && f.Expect <= limit {
 			if f.Expect <= 0 {
-				f.Expect, f.guessed = max(limit/physicalGroupDrives, 1), true
+				f.Expect = max(limit/physicalGroupDrives, 1)
 			}
 			physical = append(physical, f)
 		} else {
@@ -397,11 +397,11 @@ func scanPhysical(ctx context.Context, tx pgx.Tx, spans []ScanFrom, limit int, f
 			continue
 		}
 		if got[i] == nil {
-			// A known size is allocated at once; a guessed one (new
-			// readings, or a history never counted) grows as it comes:
-			// the guess is a group's share of the bound, about 0.9 MB.
+			// A history's size (known, or guessed as a group's share of
+			// the bound) is allocated at once; new readings, usually a
+			// few, grow as they come.
 			n := min(f.Expect+f.Expect/8, int64(limit))
-			if f.guessed {
+			if f.fresh {
 				n = 64
 			}
 			got[i] = make([]readingRow, 0, n)
