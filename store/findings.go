@@ -332,13 +332,9 @@ type findingMarks struct {
 	changed []Finding
 }
 
-// findingContentColumns are the columns an assessment rewrites in a
-// finding that still holds.
-var findingContentColumns = []string{"severity", "message", "evidence", "remedy", "kind", "physical_work", "site_id", "area_id",
-	"position_id", "cleared_at", "last_seen_at", "updated_at"}
-
-// contentValues are f's values of findingContentColumns, the evidence as
-// JSON as GORM's serializer writes it.
+// contentValues are the columns an assessment rewrites in a finding that
+// still holds, with f's values (the evidence as JSON, as GORM's serializer
+// writes it) and now as the update time.
 func contentValues(f *Finding, now time.Time) (map[string]any, error) {
 	ev, err := json.Marshal(f.Evidence)
 	if err != nil {
