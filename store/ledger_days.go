@@ -21,12 +21,6 @@ import (
 // (fifty new hours per drive) on every run.
 const dayChunkDays = 64
 
-// The ledgers of a drive state, numbered as in ledger_day_chunks.
-const (
-	ledgerCapacitor = 0
-	ledgerFan       = 1
-)
-
 // ledgerDayChunk is one stored chunk of a ledger's closed days.
 type ledgerDayChunk struct {
 	DriveID int64 `gorm:"primaryKey"`
@@ -121,7 +115,9 @@ func (st *DriveState) decodeLedgers(chunks []ledgerDayChunk) error {
 	return nil
 }
 
-// ledgerRef is one of a state's two ledgers with its stored columns.
+// ledgerRef is one of a state's two ledgers with its stored columns;
+// ledgers gives them in the order ledger_day_chunks numbers them (0 the
+// capacitor bank, 1 the cooling fan).
 type ledgerRef struct {
 	name string
 	led  *health.LifeLedger

@@ -100,7 +100,7 @@ func createStages(ctx context.Context, c *pgx.Conn, ups ...stagedUpsert) error {
 		fmt.Fprintf(&b, "CREATE TEMP TABLE IF NOT EXISTS %s (LIKE %s INCLUDING COMPRESSION) ON COMMIT DELETE ROWS;", u.stage(), u.table)
 	}
 	if _, err := c.Exec(ctx, b.String(), pgx.QueryExecModeSimpleProtocol); err != nil {
-		return fmt.Errorf("create staging tables: %w", err)
+		return fmt.Errorf("create staging tables: %w", translate(err))
 	}
 	return nil
 }
@@ -112,7 +112,7 @@ func (u stagedUpsert) run(ctx context.Context, c *pgx.Conn, rows [][]any) error 
 	}
 	n, err := c.CopyFrom(ctx, pgx.Identifier{u.stage()}, u.columns, pgx.CopyFromRows(rows))
 	if err != nil {
-		return fmt.Errorf("copy into %s: %w", u.stage(), err)
+		return fmt.Errorf("copy into %s: %w", u.stage(), translate(err))
 	}
 	if int(n) != len(rows) {
 		return fmt.Errorf("copy into %s: %d rows copied, %d sent", u.stage(), n, len(rows))
@@ -123,7 +123,7 @@ func (u stagedUpsert) run(ctx context.Context, c *pgx.Conn, rows [][]any) error 
 	q := "WITH moved AS (DELETE FROM " + u.stage() + " RETURNING " + cols + ") INSERT INTO " + u.table + " (" + cols + ") SELECT " + cols +
 		" FROM moved ON CONFLICT (" + u.conflict + ") DO UPDATE SET " + u.set
 	if _, err := c.Exec(ctx, q); err != nil {
-		return fmt.Errorf("upsert into %s: %w", u.table, err)
+		return fmt.Errorf("upsert into %s: %w", u.table, translate(err))
 	}
 	return nil
 }
