@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"net/http"
 	"os"
 	"slices"
@@ -39,13 +40,16 @@ type AssessConfig struct {
 
 // AssessReport holds the figures of one run.
 type AssessReport struct {
-	Machine     Machine
-	Drives      int
-	Readings    int
-	Full        time.Duration
-	Baseline    time.Duration
-	Floor       time.Duration
-	NewReadings int
+	Machine  Machine
+	Drives   int
+	Readings int
+	Full     time.Duration
+	// Baseline is the faster of BaselinePlanned (PostgreSQL's own plan
+	// for the baseline query) and BaselineSorted (the same query with
+	// index scans off).
+	Baseline, BaselinePlanned, BaselineSorted time.Duration
+	Floor                                     time.Duration
+	NewReadings                               int
 	// PartialDrives got the same share of new readings again, alone, and
 	// Partial is the run that took them in.
 	PartialDrives    int
@@ -73,7 +77,8 @@ func (r AssessReport) Print(w io.Writer) {
 	fmt.Fprintf(w, "machine: %d CPUs, %s, %s, load average %s at start\n", r.Machine.CPUs, r.Machine.CPUModel, r.Machine.GoVersion, r.Machine.LoadAverage)
 	fmt.Fprintf(w, "fleet: %d drives × %d hourly readings = %d readings (PostgreSQL)\n", r.Drives, r.Readings/max(r.Drives, 1), r.Readings)
 	fmt.Fprintf(w, "full assessment     %10s\n", r.Full.Round(time.Millisecond))
-	fmt.Fprintf(w, "baseline SQL pass   %10s   ratio full/baseline %.2f (target ≤ 1.0)\n", r.Baseline.Round(time.Millisecond), r.FullRatio())
+	fmt.Fprintf(w, "baseline SQL pass   %10s   ratio full/baseline %.2f (target ≤ 1.0; the faster of PostgreSQL's plan %s and a sort %s)\n",
+		r.Baseline.Round(time.Millisecond), r.FullRatio(), r.BaselinePlanned.Round(time.Millisecond), r.BaselineSorted.Round(time.Millisecond))
 	fmt.Fprintf(w, "floor: COPY out     %10s   ratio full/floor %.2f (the rows and columns the full run reads, nothing computed)\n", r.Floor.Round(time.Millisecond), r.FloorRatio())
 	fmt.Fprintf(w, "incremental (+%d)   %10s   ratio incremental/full %.3f (target ≤ 0.05)\n", r.NewReadings, r.Incremental.Round(time.Millisecond), r.IncrementalRatio())
 	fmt.Fprintf(w, "incremental, %d drives %8s   ratio to the every-drive run %.3f (a run costs in proportion to the drives with new readings)\n",
@@ -86,14 +91,67 @@ func (r AssessReport) Print(w io.Writer) {
 // ripple (life halves for every 10 °C hotter: the capacitor makers'
 // 10-degree rule, summed by the Palmgren–Miner rule, as health's
 // capacitor model cites them), the yardstick the full assessment is
-// measured against. The query is yardstick only; its result is not used.
-const baselineQuery = `SELECT count(*) FROM (
-	SELECT drive_id, sum(dt_h / (l0_h * power(2, (t0_c - core_c) / 10.0)))
+// measured against. It runs as written and every row is read: wrapped in
+// an outer count(*), PostgreSQL drops the unused sum and with it the
+// temperature column, and times a pass over the primary key alone.
+const baselineQuery = `SELECT drive_id, sum(dt_h / (l0_h * power(2, (t0_c - core_c) / 10.0)))
 	FROM (SELECT r.drive_id, r.internal_air_c AS core_c,
 	             date_part('epoch', r.at - lag(r.at) OVER (PARTITION BY r.drive_id ORDER BY r.at)) / 3600.0 AS dt_h,
 	             5000.0 AS l0_h, 105.0 AS t0_c
 	      FROM readings r) x
-	WHERE dt_h IS NOT NULL GROUP BY drive_id) y`
+	WHERE dt_h IS NOT NULL GROUP BY drive_id`
+
+// runBaseline runs baselineQuery once, with PostgreSQL's chosen plan or
+// with index scans off (a sort of the table read in stored order), and
+// checks that it summed a positive, finite life fraction for each of the
+// drives.
+func runBaseline(ctx context.Context, db *sql.DB, drives int, sorted bool) error {
+	sums, err := baselineSums(ctx, db, sorted)
+	if err != nil {
+		return err
+	}
+	for id, sum := range sums {
+		if !(sum > 0) || math.IsInf(sum, 0) {
+			return fmt.Errorf("baseline query: drive %d summed %v", id, sum)
+		}
+	}
+	if len(sums) != drives {
+		return fmt.Errorf("baseline query: %d drives summed, want %d", len(sums), drives)
+	}
+	return nil
+}
+
+// baselineSums runs baselineQuery and returns each drive's life fraction.
+func baselineSums(ctx context.Context, db *sql.DB, sorted bool) (map[int64]float64, error) {
+	tx, err := db.BeginTx(ctx, &sql.TxOptions{ReadOnly: true})
+	if err != nil {
+		return nil, fmt.Errorf("baseline query: %w", err)
+	}
+	defer tx.Rollback()
+	if sorted {
+		if _, err := tx.ExecContext(ctx, "SET LOCAL enable_indexscan = off"); err != nil {
+			return nil, fmt.Errorf("baseline query: %w", err)
+		}
+	}
+	rows, err := tx.QueryContext(ctx, baselineQuery)
+	if err != nil {
+		return nil, fmt.Errorf("baseline query: %w", err)
+	}
+	defer rows.Close()
+	sums := map[int64]float64{}
+	for rows.Next() {
+		var id int64
+		var sum float64
+		if err := rows.Scan(&id, &sum); err != nil {
+			return nil, fmt.Errorf("baseline query: %w", err)
+		}
+		sums[id] = sum
+	}
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("baseline query: %w", err)
+	}
+	return sums, nil
+}
 
 // Assess measures the assessment on PostgreSQL: a full assessment of the
 // fleet against the baseline query over the same rows, an incremental run
@@ -184,15 +242,20 @@ func Assess(ctx context.Context, cfg AssessConfig) (AssessReport, error) {
 		return rep, err
 	}
 	defer conn.Close()
-	if rep.Baseline, err = medianOf3(func() error {
-		var n int
-		if err := conn.QueryRowContext(ctx, baselineQuery).Scan(&n); err != nil {
-			return fmt.Errorf("baseline query: %w", err)
+	// The baseline is the faster of PostgreSQL's own plan and a sort of
+	// the table read in stored order: the smaller yardstick.
+	for _, sorted := range []bool{false, true} {
+		d, err := medianOf3(func() error { return runBaseline(ctx, conn, cfg.Drives, sorted) })
+		if err != nil {
+			return rep, err
 		}
-		return nil
-	}); err != nil {
-		return rep, err
+		if sorted {
+			rep.BaselineSorted = d
+		} else {
+			rep.BaselinePlanned = d
+		}
 	}
+	rep.Baseline = min(rep.BaselinePlanned, rep.BaselineSorted)
 	// The floor: the same rows and columns copied out (the window-only
 	// fields of older readings as NULL, as the full run reads them),
 	// nothing computed.
