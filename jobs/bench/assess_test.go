@@ -28,8 +28,9 @@ func TestAssessBenchmark(t *testing.T) {
 		t.Errorf("fleet: %d drives, %d readings, %d new, %d scraped; want 3, 144, 3, 10",
 			rep.Drives, rep.Readings, rep.NewReadings, rep.ScrapeDrives)
 	}
-	if rep.Full <= 0 || rep.Baseline <= 0 || rep.Floor <= 0 || rep.Incremental <= 0 || rep.Partial <= 0 || rep.Scrape <= 0 {
-		t.Errorf("times: full %v, baseline %v, floor %v, incremental %v, scrape %v", rep.Full, rep.Baseline, rep.Floor, rep.Incremental, rep.Scrape)
+	if rep.Full <= 0 || rep.Baseline <= 0 || rep.Floor <= 0 || rep.Incremental <= 0 || rep.Daily <= 0 || rep.Partial <= 0 || rep.Scrape <= 0 {
+		t.Errorf("times: full %v, baseline %v, floor %v, incremental %v, daily %v, partial %v, scrape %v",
+			rep.Full, rep.Baseline, rep.Floor, rep.Incremental, rep.Daily, rep.Partial, rep.Scrape)
 	}
 	// Ten drives, each with per-drive series and labels: far more than
 	// the fleet aggregates alone.
@@ -38,7 +39,7 @@ func TestAssessBenchmark(t *testing.T) {
 	}
 	var out bytes.Buffer
 	rep.Print(&out)
-	for _, want := range []string{"full assessment", "ratio full/baseline", "ratio full/floor", "ratio incremental/full", "ratio to the every-drive run", "/metrics scrape", "with 10 drives registered"} {
+	for _, want := range []string{"full assessment", "ratio full/baseline", "ratio full/floor", "ratio incremental/full", "daily window checks", "ratio to the every-drive run", "/metrics scrape", "with 10 drives registered"} {
 		if !strings.Contains(out.String(), want) {
 			t.Errorf("report lacks %q:\n%s", want, out.String())
 		}

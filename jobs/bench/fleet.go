@@ -123,6 +123,9 @@ func newTimeline(now time.Time, readings, positions int) timeline {
 	return timeline{positions: positions, start: end.Add(-time.Duration(hours) * time.Hour), hours: hours}
 }
 
+// last is the time of the timeline's last hour.
+func (tl timeline) last() time.Time { return tl.start.Add(time.Duration(tl.hours-1) * time.Hour) }
+
 // reading makes reading number r: hour r/positions at position
 // r%positions. Its values depend only on r, so every phase of a run sends
 // the same data. Capacitance and ESR come once a day, as many drives report
