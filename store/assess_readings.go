@@ -240,33 +240,40 @@ func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int
 				return fmt.Errorf("scan readings: %w", translate(err))
 			}
 			if len(physical) > 0 {
-				// A plain index scan would read in key order, page by
-				// page per reading again; bitmap and sequential scans
-				// read pages in stored order.
-				if _, err := tx.Exec(ctx, "SET LOCAL enable_indexscan = off", pgx.QueryExecModeSimpleProtocol); err != nil {
+				if _, err := tx.Exec(ctx, physicalScanSettings(false), pgx.QueryExecModeSimpleProtocol); err != nil {
 					return fmt.Errorf("scan readings: %w", translate(err))
 				}
 			}
-			for len(physical) > 0 {
-				n, rows := 0, int64(0)
-				for n < len(physical) && n < physicalGroupDrives && (n == 0 || rows+physical[n].Expect <= limit) {
-					rows += physical[n].Expect
-					n++
+			// Whole histories first, then new readings, each under its
+			// own settings (physicalScanSettings).
+			whole, fresh := splitFresh(physical)
+			for i, spans := range [][]ScanFrom{whole, fresh} {
+				if i == 1 && len(spans) > 0 {
+					if _, err := tx.Exec(ctx, physicalScanSettings(true), pgx.QueryExecModeSimpleProtocol); err != nil {
+						return fmt.Errorf("scan readings: %w", translate(err))
+					}
 				}
-				err := scanPhysical(ctx, tx, physical[:n], int(limit), fn)
-				if errors.Is(err, errGroupTooLarge) {
-					probed = append(probed, physical[:n]...)
-					err = nil
+				for len(spans) > 0 {
+					n, rows := 0, int64(0)
+					for n < len(spans) && n < physicalGroupDrives && (n == 0 || rows+spans[n].Expect <= limit) {
+						rows += spans[n].Expect
+						n++
+					}
+					err := scanPhysical(ctx, tx, spans[:n], int(limit), i == 1, fn)
+					if errors.Is(err, errGroupTooLarge) {
+						probed = append(probed, spans[:n]...)
+						err = nil
+					}
+					if err != nil {
+						return err
+					}
+					spans = spans[n:]
 				}
-				if err != nil {
-					return err
-				}
-				physical = physical[n:]
 			}
 			if len(probed) == 0 {
 				return nil
 			}
-			if _, err := tx.Exec(ctx, "SET LOCAL enable_indexscan = on", pgx.QueryExecModeSimpleProtocol); err != nil {
+			if _, err := tx.Exec(ctx, "SET LOCAL enable_indexscan = on; SET LOCAL enable_seqscan = on", pgx.QueryExecModeSimpleProtocol); err != nil {
 				return fmt.Errorf("scan readings: %w", translate(err))
 			}
 			slices.SortStableFunc(probed, func(a, b ScanFrom) int { return cmp.Compare(a.DriveID, b.DriveID) })
@@ -281,6 +288,49 @@ func (s *Store) scanReadingsPG(ctx context.Context, from []ScanFrom, fn func(int
 		}
 	}
 	return err
+}
+
+// splitFresh splits the spans read in stored order into whole histories
+// and new readings (ScanFrom.fresh), each in the order given.
+func splitFresh(spans []ScanFrom) (whole, fresh []ScanFrom) {
+	for _, f := range spans {
+		if f.fresh {
+			fresh = append(fresh, f)
+		} else {
+			whole = append(whole, f)
+		}
+	}
+	return whole, fresh
+}
+
+// physicalScanSettings are the planner settings of scanPhysical's read,
+// of whole histories or of new readings (fresh). A plain index scan would
+// read in key order, page by page per reading again; bitmap and sequential
+// scans read pages in stored order. New readings are read with sequential
+// scans off too, so PostgreSQL takes the primary key to the recent
+// readings and then their pages in stored order (a bitmap scan) whatever
+// its statistics say. Planned from statistics, a month's partition
+// analysed while nearly empty (as a new one is, until autovacuum next
+// analyses it) looked free to scan whole, and the cached generic plan then
+// read all of that month's readings for every group of drives: on bench
+// assess, with the new readings in a new month, 50 ms per group and over
+// 0.9 s of an incremental run's 1.1 s.
+func physicalScanSettings(fresh bool) string {
+	if fresh {
+		return "SET LOCAL enable_indexscan = off; SET LOCAL enable_seqscan = off"
+	}
+	return "SET LOCAL enable_indexscan = off"
+}
+
+// physicalScanQuery is scanPhysical's statement with the select list sel.
+// The read of new readings has its own text, which keeps its cached plan
+// (planned under its own settings) apart from the whole-history read's.
+func physicalScanQuery(sel string, fresh bool) string {
+	q := "SELECT " + sel + " FROM readings r WHERE r.drive_id = ANY($1) AND r.at > $2 AND r.at < $3"
+	if fresh {
+		q = "/* new readings */ " + q
+	}
+	return q
 }
 
 // openEnd stands for a span without an end.
@@ -348,10 +398,11 @@ func scanProbed(ctx context.Context, tx pgx.Tx, spans []ScanFrom, fn func(int64,
 
 // scanPhysical reads a group of spans with one query in the order
 // PostgreSQL stores the rows, keeps each drive's rows within its own span,
-// and passes them on by drive and time. It passes nothing on and returns
+// and passes them on by drive and time; fresh says the spans are new
+// readings (physicalScanQuery). It passes nothing on and returns
 // errGroupTooLarge once it has read more than limit readings and a
 // quarter.
-func scanPhysical(ctx context.Context, tx pgx.Tx, spans []ScanFrom, limit int, fn func(int64, int64, time.Time, health.Sample) error) error {
+func scanPhysical(ctx context.Context, tx pgx.Tx, spans []ScanFrom, limit int, fresh bool, fn func(int64, int64, time.Time, health.Sample) error) error {
 	ids := make([]int64, len(spans))
 	lo, hi := spans[0].After.UTC(), spanEnd(spans[0])
 	index := make(map[int64]int, len(spans))
@@ -370,7 +421,7 @@ func scanPhysical(ctx context.Context, tx pgx.Tx, spans []ScanFrom, limit int, f
 	if !narrow.IsZero() {
 		sel, args = readingSelect("$4"), append(args, narrow.UTC())
 	}
-	rows, err := tx.Query(ctx, "SELECT "+sel+" FROM readings r WHERE r.drive_id = ANY($1) AND r.at > $2 AND r.at < $3", args...)
+	rows, err := tx.Query(ctx, physicalScanQuery(sel, fresh), args...)
 	if err != nil {
 		return fmt.Errorf("scan readings: %w", translate(err))
 	}
