@@ -4,10 +4,12 @@ import (
 	"bytes"
 	"cmp"
 	"context"
+	"errors"
 	"fmt"
 	"slices"
 
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
 	"gorm.io/gorm"
 	"gorm.io/gorm/clause"
 
@@ -55,9 +57,13 @@ type storedDays struct {
 }
 
 // loadDayChunks reads the chunks of the drives' ledgers in drive, ledger
-// and chunk order. It scans through database/sql: at fourteen rows a
-// drive, GORM's reflection cost more than the query.
+// and chunk order. It scans through database/sql on SQLite and with pgx on
+// PostgreSQL: at fourteen rows a drive, GORM's reflection cost more than
+// the query.
 func (s *Store) loadDayChunks(ctx context.Context, db *gorm.DB, ids []int64) ([]ledgerDayChunk, error) {
+	if s.dialect == Postgres {
+		return s.loadDayChunksPG(ctx, ids)
+	}
 	rows, err := db.Raw("SELECT drive_id, ledger, chunk, days FROM ledger_day_chunks WHERE drive_id IN ? ORDER BY drive_id, ledger, chunk", ids).Rows()
 	if err != nil {
 		return nil, fmt.Errorf("load ledger days: %w", translate(err))
@@ -72,6 +78,42 @@ func (s *Store) loadDayChunks(ctx context.Context, db *gorm.DB, ids []int64) ([]
 		out = append(out, c)
 	}
 	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("load ledger days: %w", translate(err))
+	}
+	return out, nil
+}
+
+// loadDayChunksPG is loadDayChunks on PostgreSQL, on a pooled connection.
+// Each chunk's days are copied once out of pgx's read buffer; through
+// database/sql a bytea is copied twice (by the driver, then by Scan), which
+// was about a sixteenth of the memory an incremental run allocates.
+func (s *Store) loadDayChunksPG(ctx context.Context, ids []int64) ([]ledgerDayChunk, error) {
+	conn, err := s.sqlDB.Conn(ctx)
+	if err != nil {
+		return nil, fmt.Errorf("load ledger days: %w", translate(err))
+	}
+	defer conn.Close()
+	out := make([]ledgerDayChunk, 0, len(ids)*2*(400/dayChunkDays+2))
+	err = rawRunner(conn)(func(c *pgx.Conn) error {
+		rows, err := c.Query(ctx, "SELECT drive_id, ledger, chunk, days FROM ledger_day_chunks WHERE drive_id = ANY($1) ORDER BY drive_id, ledger, chunk", ids)
+		if err != nil {
+			return err
+		}
+		defer rows.Close()
+		if f := rows.FieldDescriptions(); len(f) == 4 && f[3].Format != pgtype.BinaryFormatCode {
+			return errors.New("days column is not in binary format")
+		}
+		for rows.Next() {
+			var k ledgerDayChunk
+			if err := rows.Scan(&k.DriveID, &k.Ledger, &k.Chunk, nil); err != nil {
+				return err
+			}
+			k.Days = bytes.Clone(rows.RawValues()[3])
+			out = append(out, k)
+		}
+		return rows.Err()
+	})
+	if err != nil {
 		return nil, fmt.Errorf("load ledger days: %w", translate(err))
 	}
 	return out, nil
@@ -155,8 +197,9 @@ type dayChunkWrites struct {
 // where it holds none already, which the upsert (stateUpsert) takes for
 // "leave the column as it is". A ledger whose closed days are the ones
 // loaded (the same array: none closed since) writes no chunk; otherwise
-// every chunk is encoded and those that differ from the stored ones are
-// written, and stored chunks that no longer hold a day are deleted.
+// each chunk whose days differ from those the stored chunk decoded to is
+// encoded and written if its encoding differs too, and stored chunks that
+// no longer hold a day are deleted.
 func (st *DriveState) encodeLedgers(w *dayChunkWrites) error {
 	st.sentChunks = 0
 	heads := [2]*[]byte{&st.CapacitorLedger, &st.FanLedger}
@@ -178,6 +221,7 @@ func (st *DriveState) encodeLedgers(w *dayChunkWrites) error {
 			continue
 		}
 		kept := map[int32]bool{}
+		j := 0 // the stored days from chunk c on
 		for lo := 0; lo < len(days); {
 			c := chunkOf(days[lo].Day)
 			hi := lo + 1
@@ -185,8 +229,22 @@ func (st *DriveState) encodeLedgers(w *dayChunkWrites) error {
 				hi++
 			}
 			kept[c] = true
+			for j < len(sd.days) && chunkOf(sd.days[j].Day) < c {
+				j++
+			}
+			k := j
+			for k < len(sd.days) && chunkOf(sd.days[k].Day) == c {
+				k++
+			}
+			stored, ok := sd.chunks[c]
+			if ok && sameDays(days[lo:hi], sd.days[j:k]) {
+				// The days the stored chunk decoded to: no need to
+				// encode them to see that nothing changed.
+				lo = hi
+				continue
+			}
 			enc := health.EncodeDays(days[lo:hi])
-			if !bytes.Equal(enc, sd.chunks[c]) {
+			if !ok || !bytes.Equal(enc, stored) {
 				w.put = append(w.put, ledgerDayChunk{DriveID: st.DriveID, Ledger: int16(i), Chunk: c, Days: enc})
 				st.sentChunks++
 			}
@@ -206,6 +264,11 @@ func (st *DriveState) encodeLedgers(w *dayChunkWrites) error {
 	}
 	return nil
 }
+
+// sameDays says whether a and b hold equal days. Struct equality covers
+// every field; a NaN never equals, so a day holding one is encoded and its
+// bytes compared instead.
+func sameDays(a, b []health.DayDamage) bool { return slices.Equal(a, b) }
 
 // writePG applies the chunk writes on the save's connection: a staged
 // upsert (its staging table made by createStages) and one DELETE from
