@@ -237,9 +237,11 @@ func (st *DriveState) encodeLedgers(w *dayChunkWrites) error {
 				k++
 			}
 			stored, ok := sd.chunks[c]
-			if ok && sameDays(days[lo:hi], sd.days[j:k]) {
+			if ok && !inColumn && sameDays(days[lo:hi], sd.days[j:k]) {
 				// The days the stored chunk decoded to: no need to
-				// encode them to see that nothing changed.
+				// encode them to see that nothing changed. (With days
+				// still in the column, the loaded days are not all
+				// from chunks: every chunk is encoded and compared.)
 				lo = hi
 				continue
 			}
