@@ -38,8 +38,12 @@ func ExplainPhysicalScan(ctx context.Context, s *Store, fresh bool, ids []int64,
 	defer conn.Close()
 	var plan strings.Builder
 	err = conn.Raw(func(dc any) error {
-		return pgx.BeginFunc(ctx, dc.(*stdlib.Conn).Conn(), func(tx pgx.Tx) error {
-			for _, q := range []string{
+		c := dc.(*stdlib.Conn).Conn()
+		// A prepared statement outlives the transaction, even one that
+		// failed: it is dropped after it, on the same connection.
+		prepared := false
+		err := pgx.BeginFunc(ctx, c, func(tx pgx.Tx) error {
+			for i, q := range []string{
 				physicalScanSettings(fresh),
 				"SET LOCAL plan_cache_mode = force_generic_plan",
 				"PREPARE kelvard_explain (bigint[], timestamptz, timestamptz) AS " + physicalScanQuery(readingColumns, fresh),
@@ -47,8 +51,8 @@ func ExplainPhysicalScan(ctx context.Context, s *Store, fresh bool, ids []int64,
 				if _, err := tx.Exec(ctx, q, pgx.QueryExecModeSimpleProtocol); err != nil {
 					return err
 				}
+				prepared = i == 2
 			}
-			defer tx.Exec(ctx, "DEALLOCATE kelvard_explain", pgx.QueryExecModeSimpleProtocol)
 			idText := make([]string, len(ids))
 			for i, id := range ids {
 				idText[i] = strconv.FormatInt(id, 10)
@@ -68,6 +72,12 @@ func ExplainPhysicalScan(ctx context.Context, s *Store, fresh bool, ids []int64,
 			}
 			return rows.Err()
 		})
+		if prepared {
+			if _, derr := c.Exec(ctx, "DEALLOCATE kelvard_explain", pgx.QueryExecModeSimpleProtocol); err == nil {
+				err = derr
+			}
+		}
+		return err
 	})
 	return plan.String(), err
 }
